@@ -1,0 +1,1 @@
+"""Turnback front end: the Dash dashboard and the command line."""

@@ -1,0 +1,328 @@
+"""Lake parameters and lake profile: validation, units and the dimensionless form.
+
+The lake model is the phosphorus-recycling model of Carpenter, Ludwig &
+Brock (1999)::
+
+    dP/dt = L - s P + r P**q / (m**q + P**q)
+
+with lake phosphorus mass ``P`` [kg], external load ``L`` [kg yr⁻¹], loss
+rate ``s`` [yr⁻¹] (burial plus outflow), maximum recycling rate ``r``
+[kg yr⁻¹], recycling half-saturation mass ``m`` [kg] and recycling exponent
+``q`` [–].
+
+Scaling ``x = P/m``, ``a = L/r``, ``b = s m / r`` and ``τ = t r / m`` gives
+the dimensionless form used in that paper::
+
+    dx/dτ = a - b x + x**q / (1 + x**q)
+
+References
+----------
+Carpenter, S. R., Ludwig, D. & Brock, W. A. (1999). Management of
+eutrophication for lakes subject to potentially irreversible change.
+Ecological Applications 9(3), 751–771.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import asdict, dataclass, fields
+from pathlib import Path
+from typing import Any, ClassVar
+
+__all__ = ["DimensionlessLake", "LakeParameters", "LakeProfile", "load_profile_file"]
+
+
+def _check_positive(name: str, value: object, unit: str) -> float:
+    """Return ``value`` as a float, or raise ValueError naming the field."""
+    try:
+        v = float(value)  # type: ignore[arg-type]
+    except (TypeError, ValueError):
+        raise ValueError(f"{name} must be a number greater than 0 {unit}; got {value!r}") from None
+    if not math.isfinite(v) or v <= 0.0:
+        raise ValueError(f"{name} must be a finite number greater than 0 {unit}; got {value!r}")
+    return v
+
+
+@dataclass(frozen=True)
+class LakeParameters:
+    """Parameters of the phosphorus-recycling lake model.
+
+    Parameters
+    ----------
+    loss_rate : float
+        ``s`` [yr⁻¹], fraction of lake P lost per year to burial and outflow, > 0.
+    recycling_max : float
+        ``r`` [kg yr⁻¹], maximum rate of P recycling from the sediments, > 0.
+    recycling_half : float
+        ``m`` [kg], lake P mass at which recycling is half its maximum, > 0.
+    recycling_exponent : float
+        ``q`` [–], steepness of the recycling curve, > 0.  Folds (and hence
+        hysteresis) are possible only for ``q > 1``.
+
+    Raises
+    ------
+    ValueError
+        When any value is not a finite number greater than zero; the message
+        names the field and the allowed range.
+    """
+
+    loss_rate: float
+    recycling_max: float
+    recycling_half: float
+    recycling_exponent: float
+
+    _UNITS: ClassVar[dict[str, str]] = {
+        "loss_rate": "[yr⁻¹]",
+        "recycling_max": "[kg yr⁻¹]",
+        "recycling_half": "[kg]",
+        "recycling_exponent": "[–]",
+    }
+
+    def __post_init__(self) -> None:
+        for f in fields(self):
+            value = _check_positive(f.name, getattr(self, f.name), self._UNITS[f.name])
+            object.__setattr__(self, f.name, value)
+
+    # short names used in equations
+    @property
+    def s(self) -> float:
+        return self.loss_rate
+
+    @property
+    def r(self) -> float:
+        return self.recycling_max
+
+    @property
+    def m(self) -> float:
+        return self.recycling_half
+
+    @property
+    def q(self) -> float:
+        return self.recycling_exponent
+
+    def rate(self, t: float, p: Any, load: Any) -> Any:
+        """Right-hand side ``f(t, P, L) = L - s P + r P^q/(m^q + P^q)`` [kg yr⁻¹].
+
+        Shaped ``f(t, y, *args)`` so it can be passed to
+        :func:`scipy.integrate.solve_ivp` with ``args=(load,)``.
+        """
+        return load - self.s * p + self.r * recycling_fraction(p, self.m, self.q)
+
+    def to_dimensionless(self) -> DimensionlessLake:
+        """The dimensionless lake ``(b, q)`` with ``b = s m / r``."""
+        return DimensionlessLake(b=self.s * self.m / self.r, q=self.q)
+
+    def to_dict(self) -> dict[str, float]:
+        return {f.name: getattr(self, f.name) for f in fields(self)}
+
+    @classmethod
+    def from_dict(cls, data: dict[str, Any]) -> LakeParameters:
+        names = [f.name for f in fields(cls)]
+        missing = [n for n in names if n not in data]
+        if missing:
+            raise ValueError(f"lake parameters are missing {', '.join(missing)}")
+        return cls(**{n: data[n] for n in names})
+
+    def to_json(self) -> str:
+        return json.dumps(self.to_dict())
+
+    @classmethod
+    def from_json(cls, text: str) -> LakeParameters:
+        return cls.from_dict(json.loads(text))
+
+
+def recycling_fraction(p: Any, m: float, q: float) -> Any:
+    """Hill function ``P^q / (m^q + P^q)`` [–], computed without overflow.
+
+    Written as the logistic function of ``q ln(P/m)``, accurate in both
+    tails; works for scalars and numpy arrays,
+    and returns 0 at ``P = 0``.
+    """
+    import numpy as np
+    from scipy.special import expit
+
+    p_arr = np.asarray(p, dtype=float)
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        z = q * (np.log(np.maximum(p_arr, 0.0)) - math.log(m))
+        out = np.where(p_arr > 0.0, expit(z), 0.0)
+    if np.ndim(out) == 0:
+        return float(out)
+    return out
+
+
+@dataclass(frozen=True)
+class DimensionlessLake:
+    """The lake in the dimensionless form of Carpenter et al. (1999).
+
+    ``dx/dτ = a - b x + x^q/(1 + x^q)`` with ``x = P/m``, ``a = L/r``,
+    ``b = s m / r`` and ``τ = t r / m``.
+    """
+
+    b: float
+    q: float
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "b", _check_positive("b", self.b, "[–]"))
+        object.__setattr__(self, "q", _check_positive("q", self.q, "[–]"))
+
+    def to_parameters(self, recycling_max: float = 1.0, recycling_half: float = 1.0) -> LakeParameters:
+        """Dimensional parameters with the given ``r`` and ``m``; ``s = b r / m``."""
+        return LakeParameters(
+            loss_rate=self.b * recycling_max / recycling_half,
+            recycling_max=recycling_max,
+            recycling_half=recycling_half,
+            recycling_exponent=self.q,
+        )
+
+
+@dataclass(frozen=True)
+class LakeProfile:
+    """A lake's physical description, used to convert model units.
+
+    Parameters
+    ----------
+    name : str
+        Display name of the lake.
+    area_km2 : float
+        Surface area [km²], > 0.
+    volume_m3 : float
+        Lake volume [m³], > 0.  Use :meth:`from_depth` to give a mean depth
+        instead.
+    load_kg_yr : float
+        Present-day external P load [kg yr⁻¹], >= 0.
+    """
+
+    name: str
+    area_km2: float
+    volume_m3: float
+    load_kg_yr: float
+
+    def __post_init__(self) -> None:
+        name = str(self.name).strip()
+        if not name:
+            raise ValueError("name must not be empty")
+        if len(name) > 120:
+            raise ValueError("name must be at most 120 characters")
+        object.__setattr__(self, "name", name)
+        object.__setattr__(self, "area_km2", _check_positive("area_km2", self.area_km2, "[km²]"))
+        object.__setattr__(self, "volume_m3", _check_positive("volume_m3", self.volume_m3, "[m³]"))
+        try:
+            load = float(self.load_kg_yr)
+        except (TypeError, ValueError):
+            raise ValueError(f"load_kg_yr must be a number >= 0 [kg yr⁻¹]; got {self.load_kg_yr!r}") from None
+        if not math.isfinite(load) or load < 0.0:
+            raise ValueError(f"load_kg_yr must be a finite number >= 0 [kg yr⁻¹]; got {self.load_kg_yr!r}")
+        object.__setattr__(self, "load_kg_yr", load)
+
+    @classmethod
+    def from_depth(cls, name: str, area_km2: float, mean_depth_m: float, load_kg_yr: float) -> LakeProfile:
+        """Profile from surface area [km²] and mean depth [m]."""
+        area = _check_positive("area_km2", area_km2, "[km²]")
+        depth = _check_positive("mean_depth_m", mean_depth_m, "[m]")
+        return cls(name=name, area_km2=area, volume_m3=area * 1.0e6 * depth, load_kg_yr=load_kg_yr)
+
+    @property
+    def mean_depth_m(self) -> float:
+        """Mean depth [m] = volume / area."""
+        return self.volume_m3 / (self.area_km2 * 1.0e6)
+
+    def concentration(self, p_kg: Any) -> Any:
+        """Total phosphorus [µg L⁻¹] from lake P mass [kg].
+
+        ``TP = P · 10⁹ µg kg⁻¹ / (V · 10³ L m⁻³) = 10⁶ P / V``.
+        """
+        return p_kg * 1.0e6 / self.volume_m3
+
+    def mass(self, tp_ug_l: Any) -> Any:
+        """Lake P mass [kg] from total phosphorus [µg L⁻¹]; inverse of :meth:`concentration`."""
+        return tp_ug_l * self.volume_m3 / 1.0e6
+
+    def areal_load(self, load_kg_yr: Any) -> Any:
+        """Areal load [mg m⁻² yr⁻¹] from load [kg yr⁻¹]: ``10⁶ L / (A · 10⁶) = L / A``."""
+        return load_kg_yr / self.area_km2
+
+    def load_from_areal(self, areal_mg_m2_yr: Any) -> Any:
+        """Load [kg yr⁻¹] from areal load [mg m⁻² yr⁻¹]."""
+        return areal_mg_m2_yr * self.area_km2
+
+    def to_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+    @classmethod
+    def from_dict(cls, data: dict[str, Any]) -> LakeProfile:
+        if not isinstance(data, dict):
+            raise ValueError(
+                "a lake profile must be an object with name, area_km2, volume_m3 or mean_depth_m, load_kg_yr"
+            )
+        known = {"name", "area_km2", "volume_m3", "mean_depth_m", "load_kg_yr"}
+        unknown = sorted(set(data) - known)
+        if unknown:
+            raise ValueError(f"unknown lake profile field(s): {', '.join(unknown)}")
+        for key in ("name", "area_km2", "load_kg_yr"):
+            if key not in data:
+                raise ValueError(f"lake profile is missing {key}")
+        if "volume_m3" in data and "mean_depth_m" in data:
+            raise ValueError("give either volume_m3 or mean_depth_m, not both")
+        if "volume_m3" in data:
+            return cls(data["name"], data["area_km2"], data["volume_m3"], data["load_kg_yr"])
+        if "mean_depth_m" in data:
+            return cls.from_depth(data["name"], data["area_km2"], data["mean_depth_m"], data["load_kg_yr"])
+        raise ValueError("lake profile needs volume_m3 or mean_depth_m")
+
+    def to_json(self) -> str:
+        return json.dumps(self.to_dict())
+
+    @classmethod
+    def from_json(cls, text: str) -> LakeProfile:
+        return cls.from_dict(json.loads(text))
+
+
+def load_profile_file(path: str | Path) -> tuple[LakeProfile, LakeParameters | None]:
+    """Read a lake profile from a JSON or TOML file.
+
+    The file holds the profile fields at the top level (``name``,
+    ``area_km2``, ``volume_m3`` or ``mean_depth_m``, ``load_kg_yr``) and,
+    optionally, a ``parameters`` table with the four model parameters.
+
+    Raises
+    ------
+    ValueError
+        With a message that says what to fix, for a missing, unreadable or
+        malformed file.
+    """
+    p = Path(path)
+    try:
+        raw = p.read_bytes()
+    except OSError as exc:
+        raise ValueError(f"cannot read lake file {str(path)!r}: {exc.strerror or exc}") from None
+    if len(raw) > 1_000_000:
+        raise ValueError(f"lake file {str(path)!r} is larger than 1 MB; a lake profile is a few lines")
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError:
+        raise ValueError(f"lake file {str(path)!r} is not UTF-8 text") from None
+    data: Any
+    if p.suffix.lower() == ".toml":
+        import tomllib
+
+        try:
+            data = tomllib.loads(text)
+        except tomllib.TOMLDecodeError as exc:
+            raise ValueError(f"lake file {str(path)!r} is not valid TOML: {exc}") from None
+    else:
+        try:
+            data = json.loads(text)
+        except json.JSONDecodeError as exc:
+            raise ValueError(f"lake file {str(path)!r} is not valid JSON: {exc.msg} at line {exc.lineno}") from None
+    if not isinstance(data, dict):
+        raise ValueError(f"lake file {str(path)!r} must hold an object of lake profile fields")
+    data = dict(data)
+    params_data = data.pop("parameters", None)
+    profile = LakeProfile.from_dict(data)
+    params = None
+    if params_data is not None:
+        if not isinstance(params_data, dict):
+            raise ValueError("'parameters' in the lake file must be a table of the four model parameters")
+        params = LakeParameters.from_dict(params_data)
+    return profile, params
