@@ -63,7 +63,8 @@ def main() -> None:
     print(f"  ratio peer / engine: {t_peer / t_engine:,.0f}x")
     print(f"  peer tipping load {tip_est:.3f} vs exact {tip.load:.6f} kg/yr: error {abs(tip_est - tip.load):.3f}")
     print(f"  peer recovery load {rec_est:.3f} vs exact {rec.load:.6f} kg/yr: error {abs(rec_est - rec.load):.3f}")
-    print(f"  (the peer is limited by its grid spacing, {loads[1] - loads[0]:.3f} kg/yr, and by slow convergence near a fold)")
+    spacing = loads[1] - loads[0]
+    print(f"  (the peer is limited by its grid spacing, {spacing:.3f} kg/yr, and by slow convergence near a fold)")
 
 
 if __name__ == "__main__":

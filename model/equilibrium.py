@@ -72,12 +72,14 @@ __all__ = [
     "Regime",
     "RemovalNeed",
     "SafetyMargin",
+    "StateReading",
     "analyze",
     "cusp_b",
     "equilibria",
     "equilibrium_curve",
     "folds",
     "irreversible_b",
+    "read_state",
     "regime",
     "removal_needed",
     "safety_margin",
@@ -690,6 +692,64 @@ def safety_margin(params: LakeParameters, load: float, fs: tuple[Fold, ...] | No
     kg = tip - load
     pct = 100.0 * kg / load if load > 0.0 else None
     return SafetyMargin(load, tip, kg, pct)
+
+
+@dataclass(frozen=True)
+class StateReading:
+    """Where a lake state is heading at a given load.
+
+    Attributes
+    ----------
+    p : float
+        Present lake P [kg].
+    load : float
+        Load [kg yr⁻¹].
+    attractor : Equilibrium
+        The stable equilibrium whose basin holds ``p``.
+    label : {"clear", "turbid", "single"}
+        ``clear`` for the lower branch, ``turbid`` for the upper branch,
+        ``single`` for a lake with one stable state at this load and no folds.
+    settled : bool
+        True when ``p`` is within ``settle_tol`` (relative) of the attractor.
+    separatrix_p : float or None
+        The unstable equilibrium [kg] bounding the basins, where there is one.
+    """
+
+    p: float
+    load: float
+    attractor: Equilibrium
+    label: Literal["clear", "turbid", "single"]
+    settled: bool
+    separatrix_p: float | None
+
+
+def read_state(params: LakeParameters, load: float, p: float, settle_tol: float = 0.02) -> StateReading:
+    """Classify lake state ``p`` [kg] at ``load`` [kg yr⁻¹] by its basin of attraction.
+
+    With three equilibria the separatrix (middle) divides the clear and turbid
+    basins; with one, every state heads to it.  For the annual map with
+    ``s < 1`` the map is increasing in ``P`` (``1 + ∂f/∂P >= 1 - s > 0``), so
+    the basins are exactly those of the differential equation.
+    """
+    eqs = equilibria(params, load)
+    stable = [e for e in eqs if e.stable]
+    middle = [e for e in eqs if e.branch == "middle"]
+    sep = middle[0].p if middle else None
+    if not stable:  # only at a fold load exactly: fall back to the nearest equilibrium
+        stable = list(eqs)
+    if sep is not None and len(stable) >= 2:
+        attractor = stable[0] if p < sep else stable[-1]
+    else:
+        attractor = min(stable, key=lambda e: abs(e.p - p))
+    label: Literal["clear", "turbid", "single"]
+    if attractor.branch == "lower":
+        label = "clear"
+    elif attractor.branch == "upper":
+        label = "turbid"
+    else:
+        label = "single"
+    settled = abs(p - attractor.p) <= settle_tol * max(attractor.p, 1e-12 * params.m)
+    return StateReading(p=p, load=load, attractor=attractor, label=label, settled=settled, separatrix_p=sep)
 
 
 def analyze(

@@ -1,0 +1,213 @@
+"""Dashboard callbacks: parse, call the model, build, return."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from dash import Dash, Input, Output, Patch, State, ctx, no_update
+
+from model.equilibrium import analyze
+
+from . import ids
+from .figures import EQ_CURRENT, EQ_HISTORY, TIME_LOAD, TIME_TP, equilibrium_figure, history_xy, time_figure
+from .layout import slider_config
+from .readout import build_readout, removal_text
+from .session import MAX_YEARS, advance, lake_from_store, lake_key, new_history, remove_p
+from .validate import FIELD_RULES, check_settings
+
+
+def _meeting(value: list[str] | None) -> bool:
+    return bool(value) and "on" in (value or [])
+
+
+def on_settings(*args: Any) -> tuple[Any, ...]:
+    """A settings field changed: accept the new lake or say what is wrong, keeping the old one."""
+    *values, lake = args
+    params_in = dict(zip(FIELD_RULES, values, strict=True))
+    name = lake["profile"]["name"] if lake else "Lake"
+    new_lake, messages = check_settings(params_in, name)
+    msgs = [messages[f] for f in FIELD_RULES]
+    if new_lake is None:
+        return (no_update, *msgs, "Not applied: fix the field marked in red. The lake shown is the last valid one.")
+    if new_lake == lake:
+        return (no_update, *msgs, "")
+    return (new_lake, *msgs, "Applied. The history starts again for the changed lake.")
+
+
+def on_lake(lake: dict[str, Any], meeting_value: list[str] | None, history: dict[str, Any] | None) -> tuple[Any, ...]:
+    """The lake (or the view) changed: rebuild the figures and the slider."""
+    params, profile = lake_from_store(lake)
+    if history is None or history.get("lake_key") != lake_key(lake):
+        history_out: Any = new_history(lake)
+        history = history_out
+    else:
+        history_out = no_update
+    analysis = analyze(params, n_points=1200)
+    slider = slider_config(analysis, profile)
+    meeting = _meeting(meeting_value)
+    eq = equilibrium_figure(
+        analysis, profile, history, present_load=profile.load_kg_yr, load_max=slider["max"], meeting=meeting
+    )
+    tf = time_figure(history, profile, meeting=meeting)
+    return (history_out, eq, tf, slider["max"], slider["step"], slider["marks"], history["load"][-1], profile.name)
+
+
+def history_patches(history: dict[str, Any], lake: dict[str, Any]) -> tuple[Patch, Patch]:
+    """Patches that redraw only the history layers of both figures."""
+    _, profile = lake_from_store(lake)
+    hxy = history_xy(history, profile)
+    eq = Patch()
+    eq["data"][EQ_HISTORY]["x"] = hxy["load"]
+    eq["data"][EQ_HISTORY]["y"] = hxy["tp"]
+    eq["data"][EQ_HISTORY]["customdata"] = hxy["year"]
+    eq["data"][EQ_CURRENT]["x"] = hxy["load"][-1:]
+    eq["data"][EQ_CURRENT]["y"] = hxy["tp"][-1:]
+    tf = Patch()
+    tf["data"][TIME_TP]["x"] = hxy["year"]
+    tf["data"][TIME_TP]["y"] = hxy["tp"]
+    tf["data"][TIME_LOAD]["x"] = hxy["year"]
+    tf["data"][TIME_LOAD]["y"] = hxy["load"]
+    return eq, tf
+
+
+def _years(value: Any) -> tuple[int | None, str]:
+    try:
+        years = int(value)
+    except (TypeError, ValueError):
+        return None, f"Years per change: enter a whole number from 1 to {MAX_YEARS}."
+    if not 1 <= years <= MAX_YEARS or years != float(value):
+        return None, f"Years per change: enter a whole number from 1 to {MAX_YEARS}."
+    return years, ""
+
+
+def step_session(
+    trigger: str | None,
+    load: Any,
+    history: dict[str, Any],
+    lake: dict[str, Any],
+    years_value: Any,
+    removal_value: Any,
+) -> tuple[dict[str, Any] | None, str, str]:
+    """Apply one user action to the history; returns (new history or None, years message, removal message)."""
+    params, _ = lake_from_store(lake)
+    if history is None or history.get("lake_key") != lake_key(lake):
+        return None, "", ""
+    if trigger == ids.RESET_BUTTON:
+        new = dict(history)
+        for k in ("year", "load", "p", "event"):
+            new[k] = [history[k][-1]]
+        new["year"] = [0]
+        new["event"] = ["start"]
+        return new, "", ""
+    years, years_msg = _years(years_value)
+    if years is None:
+        return None, years_msg, ""
+    if trigger == ids.REMOVAL_BUTTON:
+        try:
+            kg = float(removal_value)
+        except (TypeError, ValueError):
+            return None, "", "Enter the P mass to remove in kg (a number of 0 or more)."
+        if not kg >= 0 or kg != kg or kg == float("inf"):
+            return None, "", "Enter the P mass to remove in kg (a number of 0 or more)."
+        new_h = remove_p(history, params, kg, years)
+        return new_h, "", f"Removed {min(kg, history['p'][-1]):,.0f} kg P, then {years} years passed."
+    if load is None:
+        return None, "", ""
+    load = float(load)
+    if trigger == ids.LOAD_SLIDER and load == history["load"][-1]:
+        return None, "", ""
+    return advance(history, params, load, years), "", ""
+
+
+def on_action(
+    load: Any,
+    _wait: int,
+    _reset: int,
+    _remove: int,
+    history: dict[str, Any],
+    lake: dict[str, Any],
+    years_value: Any,
+    removal_value: Any,
+) -> tuple[Any, ...]:
+    """Load moved, years passed, removal or restart: advance the lake and patch the figures."""
+    new, years_msg, removal_msg = step_session(ctx.triggered_id, load, history, lake, years_value, removal_value)
+    if new is None:
+        return no_update, no_update, no_update, years_msg, removal_msg
+    eq, tf = history_patches(new, lake)
+    return new, eq, tf, years_msg, removal_msg
+
+
+def on_history(
+    history: dict[str, Any] | None, meeting_value: list[str] | None, lake: dict[str, Any]
+) -> tuple[Any, ...]:
+    """Readout and removal need for the current state."""
+    if history is None:
+        return no_update, no_update, no_update
+    params, profile = lake_from_store(lake)
+    if history.get("lake_key") != lake_key(lake):
+        return no_update, no_update, no_update
+    load, p_now = history["load"][-1], history["p"][-1]
+    analysis = analyze(params, n_points=10)
+    rows = build_readout(params, profile, analysis, load, p_now, meeting=_meeting(meeting_value))
+    text, kg = removal_text(params, profile, load, p_now)
+    suggestion = round(kg * 1.0 + 0.5) if kg > 0 else 0
+    return rows, text, suggestion
+
+
+def on_meeting(value: list[str] | None) -> tuple[str, dict[str, str]]:
+    meeting = _meeting(value)
+    return ("page meeting" if meeting else "page"), ({"display": "none"} if meeting else {})
+
+
+def register(app: Dash) -> None:
+    field_inputs = [Input(ids.FIELDS[f][0], "value") for f in FIELD_RULES]
+    app.callback(
+        Output(ids.LAKE_STORE, "data"),
+        *[Output(ids.FIELDS[f][1], "children") for f in FIELD_RULES],
+        Output(ids.SETTINGS_STATUS, "children"),
+        *field_inputs,
+        State(ids.LAKE_STORE, "data"),
+        prevent_initial_call=True,
+    )(on_settings)
+    app.callback(
+        Output(ids.HISTORY_STORE, "data"),
+        Output(ids.EQUILIBRIUM_GRAPH, "figure"),
+        Output(ids.TIME_GRAPH, "figure"),
+        Output(ids.LOAD_SLIDER, "max"),
+        Output(ids.LOAD_SLIDER, "step"),
+        Output(ids.LOAD_SLIDER, "marks"),
+        Output(ids.LOAD_SLIDER, "value"),
+        Output(ids.LAKE_TITLE, "children"),
+        Input(ids.LAKE_STORE, "data"),
+        Input(ids.MEETING_TOGGLE, "value"),
+        State(ids.HISTORY_STORE, "data"),
+    )(on_lake)
+    app.callback(
+        Output(ids.HISTORY_STORE, "data", allow_duplicate=True),
+        Output(ids.EQUILIBRIUM_GRAPH, "figure", allow_duplicate=True),
+        Output(ids.TIME_GRAPH, "figure", allow_duplicate=True),
+        Output(ids.YEARS_MESSAGE, "children"),
+        Output(ids.REMOVAL_MESSAGE, "children"),
+        Input(ids.LOAD_SLIDER, "value"),
+        Input(ids.WAIT_BUTTON, "n_clicks"),
+        Input(ids.RESET_BUTTON, "n_clicks"),
+        Input(ids.REMOVAL_BUTTON, "n_clicks"),
+        State(ids.HISTORY_STORE, "data"),
+        State(ids.LAKE_STORE, "data"),
+        State(ids.YEARS_INPUT, "value"),
+        State(ids.REMOVAL_INPUT, "value"),
+        prevent_initial_call=True,
+    )(on_action)
+    app.callback(
+        Output(ids.READOUT, "children"),
+        Output(ids.REMOVAL_NEEDED, "children"),
+        Output(ids.REMOVAL_INPUT, "value"),
+        Input(ids.HISTORY_STORE, "data"),
+        Input(ids.MEETING_TOGGLE, "value"),
+        State(ids.LAKE_STORE, "data"),
+    )(on_history)
+    app.callback(
+        Output(ids.ROOT, "className"),
+        Output(ids.SETTINGS_PANEL, "style"),
+        Input(ids.MEETING_TOGGLE, "value"),
+    )(on_meeting)

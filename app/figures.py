@@ -1,0 +1,254 @@
+"""Figure builders: model results in, ``go.Figure`` out.  No callbacks here.
+
+The trace order of each figure is fixed (see ``EQ_TRACES`` and
+``TIME_TRACES``) so that callbacks can patch the history layers in place
+without rebuilding the whole figure.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Any
+
+import numpy as np
+import plotly.graph_objects as go
+from plotly.subplots import make_subplots
+
+from model.equilibrium import LakeAnalysis
+from model.params import LakeProfile
+
+#: fixed trace order of the equilibrium figure
+EQ_TRACES = ("lower", "middle", "upper", "folds", "observed", "history", "current")
+EQ_HISTORY = EQ_TRACES.index("history")
+EQ_CURRENT = EQ_TRACES.index("current")
+EQ_OBSERVED = EQ_TRACES.index("observed")
+
+#: fixed trace order of the time figure
+TIME_TRACES = ("tp", "load", "observed_tp", "observed_load")
+TIME_TP = 0
+TIME_LOAD = 1
+
+# our palette
+CLEAR = "#1f6fa8"  # clear-water branch
+TURBID = "#7a8f1c"  # turbid, algae-dominated branch
+SEPARATRIX = "#7d7d7d"
+FOLD = "#2d2d2d"
+BISTABLE = "rgba(232, 180, 60, 0.17)"
+HISTORY = "#b5462f"
+CURRENT = "#e0701a"
+TODAY = "#5b4a8a"
+
+
+def _labels(meeting: bool) -> dict[str, str]:
+    if meeting:
+        return {
+            "x": "Phosphorus flowing in each year (kg)",
+            "y": "Phosphorus in the lake water (µg per litre)",
+            "lower": "Clear water",
+            "middle": "Tipping threshold",
+            "upper": "Turbid, green water",
+            "single": "The lake's only stable state",
+            "band": "two possible states",
+            "history": "Path so far",
+            "current": "The lake now",
+            "folds": "Tipping and recovery points",
+            "today": "today",
+            "year": "Year of the session",
+            "tp": "TP (µg/L)",
+            "load": "Inflow (kg/yr)",
+        }
+    return {
+        "x": "External P load L [kg yr⁻¹]",
+        "y": "Lake total phosphorus TP [µg L⁻¹]",
+        "lower": "Clear-water branch (stable)",
+        "middle": "Separatrix (unstable)",
+        "upper": "Turbid branch (stable)",
+        "single": "Equilibrium (stable)",
+        "band": "bistable: two stable states",
+        "history": "History this session",
+        "current": "Current state",
+        "folds": "Folds",
+        "today": "present-day load",
+        "year": "Session year [yr]",
+        "tp": "TP [µg L⁻¹]",
+        "load": "Load [kg yr⁻¹]",
+    }
+
+
+def _style(meeting: bool) -> dict[str, Any]:
+    return {"font": 22 if meeting else 15, "line": 5 if meeting else 3, "marker": 20 if meeting else 14}
+
+
+def history_xy(history: dict[str, Sequence[float]], profile: LakeProfile) -> dict[str, Any]:
+    """Load and TP [µg L⁻¹] of every history point, for the figure layers."""
+    p = np.asarray(history["p"], dtype=float)
+    return {
+        "load": list(history["load"]),
+        "tp": profile.concentration(p).tolist(),
+        "year": list(history["year"]),
+    }
+
+
+def equilibrium_figure(
+    analysis: LakeAnalysis,
+    profile: LakeProfile,
+    history: dict[str, Sequence[float]],
+    *,
+    present_load: float,
+    load_max: float,
+    meeting: bool = False,
+) -> go.Figure:
+    """Equilibrium curve (load against TP) with folds, bistable band, history and current state.
+
+    Stable branches are solid, the unstable branch dashed; the band of loads
+    with two stable states is shaded; the history trace shows every state of
+    the session in time order.
+    """
+    lab = _labels(meeting)
+    sty = _style(meeting)
+    fig = go.Figure()
+    segs: dict[str, Any] = {name: (load, p) for name, load, p in analysis.curve.segments()}
+    for name in ("lower", "middle", "upper"):
+        key = name
+        if name == "upper" and "single" in segs:
+            key = "single"
+        load, p = segs.get(key, (np.empty(0), np.empty(0)))
+        colour = {"lower": CLEAR, "middle": SEPARATRIX, "upper": TURBID, "single": CLEAR}[key]
+        fig.add_trace(
+            go.Scatter(
+                x=load,
+                y=profile.concentration(p),
+                mode="lines",
+                name=lab[key],
+                line={"color": colour, "width": sty["line"], "dash": "dash" if key == "middle" else "solid"},
+                hovertemplate="%{x:.0f} kg/yr, %{y:.1f} µg/L<extra>" + lab[key] + "</extra>",
+                showlegend=bool(len(load)),
+            )
+        )
+    fx = [f.load for f in analysis.folds]
+    fy = [float(profile.concentration(f.p)) for f in analysis.folds]
+    ftext = [("tipping load " if f.kind == "tipping" else "recovery load ") + f"{f.load:,.0f}" for f in analysis.folds]
+    fig.add_trace(
+        go.Scatter(
+            x=fx,
+            y=fy,
+            mode="markers+text",
+            text=ftext,
+            textposition=["top left", "bottom right"][: len(fx)],
+            textfont={"size": sty["font"] - 2, "color": FOLD},
+            marker={"symbol": "diamond", "size": sty["marker"], "color": FOLD, "line": {"color": "white", "width": 1}},
+            name=lab["folds"],
+            hovertemplate="%{text}: %{x:.0f} kg/yr, %{y:.1f} µg/L<extra></extra>",
+            showlegend=False,
+        )
+    )
+    fig.add_trace(go.Scatter(x=[], y=[], mode="markers", name="Observed years", showlegend=False))
+    hxy = history_xy(history, profile)
+    fig.add_trace(
+        go.Scatter(
+            x=hxy["load"],
+            y=hxy["tp"],
+            customdata=hxy["year"],
+            mode="lines+markers",
+            name=lab["history"],
+            line={"color": HISTORY, "width": max(1.5, sty["line"] - 1.5)},
+            marker={"size": sty["marker"] // 2.5, "color": HISTORY},
+            opacity=0.75,
+            hovertemplate="year %{customdata}: %{x:.0f} kg/yr, %{y:.1f} µg/L<extra></extra>",
+        )
+    )
+    fig.add_trace(
+        go.Scatter(
+            x=hxy["load"][-1:],
+            y=hxy["tp"][-1:],
+            mode="markers",
+            name=lab["current"],
+            marker={
+                "size": sty["marker"] * 1.6,
+                "color": CURRENT,
+                "symbol": "circle",
+                "line": {"color": "white", "width": 3},
+            },
+            hovertemplate="now: %{x:.0f} kg/yr, %{y:.1f} µg/L<extra></extra>",
+        )
+    )
+    if len(analysis.folds) == 2:
+        lo = max(0.0, analysis.folds[1].load)
+        hi = analysis.folds[0].load
+        fig.add_vrect(
+            x0=lo,
+            x1=hi,
+            fillcolor=BISTABLE,
+            line_width=0,
+            layer="below",
+            annotation_text=lab["band"],
+            annotation_position="top left",
+            annotation_font_size=sty["font"] - 3,
+        )
+    fig.add_vline(
+        x=present_load,
+        line={"color": TODAY, "width": 2, "dash": "dot"},
+        annotation_text=lab["today"],
+        annotation_position="bottom right",
+        annotation_font={"size": sty["font"] - 3, "color": TODAY},
+    )
+    y_top = float(profile.concentration(np.max(analysis.curve.p))) if len(analysis.curve) else 1.0
+    y_top = max(y_top, max(hxy["tp"]) if hxy["tp"] else 0.0) * 1.05
+    fig.update_layout(
+        template="plotly_white",
+        font={"size": sty["font"]},
+        margin={"l": 70, "r": 20, "t": 30, "b": 60},
+        height=600 if meeting else 500,
+        xaxis={"title": lab["x"], "range": [min(0.0, float(np.min(analysis.curve.load))), load_max], "zeroline": True},
+        yaxis={"title": lab["y"], "range": [0.0, y_top], "rangemode": "tozero"},
+        legend={"orientation": "h", "yanchor": "bottom", "y": 1.01, "x": 0.0},
+        uirevision="equilibrium",
+    )
+    return fig
+
+
+def time_figure(history: dict[str, Sequence[float]], profile: LakeProfile, *, meeting: bool = False) -> go.Figure:
+    """Lake TP and load against session year, for the same history."""
+    lab = _labels(meeting)
+    sty = _style(meeting)
+    fig = make_subplots(rows=2, cols=1, shared_xaxes=True, row_heights=[0.62, 0.38], vertical_spacing=0.06)
+    hxy = history_xy(history, profile)
+    fig.add_trace(
+        go.Scatter(
+            x=hxy["year"],
+            y=hxy["tp"],
+            mode="lines+markers",
+            name=lab["tp"],
+            line={"color": HISTORY, "width": sty["line"] - 1},
+            marker={"size": sty["marker"] // 3},
+            hovertemplate="year %{x}: %{y:.1f} µg/L<extra></extra>",
+        ),
+        row=1,
+        col=1,
+    )
+    fig.add_trace(
+        go.Scatter(
+            x=hxy["year"],
+            y=hxy["load"],
+            mode="lines",
+            line={"shape": "hv", "color": TODAY, "width": sty["line"] - 1},
+            name=lab["load"],
+            hovertemplate="year %{x}: %{y:.0f} kg/yr<extra></extra>",
+        ),
+        row=2,
+        col=1,
+    )
+    fig.add_trace(go.Scatter(x=[], y=[], mode="markers", name="Observed TP", showlegend=False), row=1, col=1)
+    fig.add_trace(go.Scatter(x=[], y=[], mode="markers", name="Observed load", showlegend=False), row=2, col=1)
+    fig.update_layout(
+        template="plotly_white",
+        font={"size": sty["font"] - 1},
+        margin={"l": 90 if meeting else 70, "r": 20, "t": 20, "b": 50},
+        height=420 if meeting else 360,
+        showlegend=False,
+        uirevision="time",
+    )
+    fig.update_yaxes(title_text=lab["tp"], row=1, col=1, rangemode="tozero")
+    fig.update_yaxes(title_text=lab["load"], row=2, col=1, rangemode="tozero")
+    fig.update_xaxes(title_text=lab["year"], row=2, col=1)
+    return fig

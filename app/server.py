@@ -1,0 +1,41 @@
+"""The Dash application factory."""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+import diskcache
+from dash import Dash, DiskcacheManager
+
+from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
+
+from . import callbacks
+from .layout import build_layout
+from .session import lake_to_store
+
+ASSETS = Path(__file__).resolve().parent.parent / "assets"
+
+
+def cache_dir() -> Path:
+    """Folder for the background-callback cache: $TURNBACK_CACHE_DIR or a per-user temp folder."""
+    env = os.environ.get("TURNBACK_CACHE_DIR")
+    if env:
+        return Path(env)
+    return Path(tempfile.gettempdir()) / f"turnback-cache-{os.getuid() if hasattr(os, 'getuid') else 'user'}"
+
+
+def create_app() -> Dash:
+    """Build the dashboard on the built-in demo lake.  All state lives in the browser session."""
+    manager = DiskcacheManager(diskcache.Cache(str(cache_dir())))
+    app = Dash(
+        __name__,
+        title="Turnback",
+        assets_folder=str(ASSETS),
+        background_callback_manager=manager,
+        suppress_callback_exceptions=False,
+    )
+    app.layout = build_layout(lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE))
+    callbacks.register(app)
+    return app
