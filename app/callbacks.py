@@ -42,7 +42,7 @@ def on_lake(lake: dict[str, Any], meeting_value: list[str] | None, history: dict
         history = history_out
     else:
         history_out = no_update
-    analysis = analyze(params, n_points=1200)
+    analysis = analyze(params, n_points=600)
     slider = slider_config(analysis, profile)
     meeting = _meeting(meeting_value)
     eq = equilibrium_figure(
@@ -53,7 +53,12 @@ def on_lake(lake: dict[str, Any], meeting_value: list[str] | None, history: dict
 
 
 def history_patches(history: dict[str, Any], lake: dict[str, Any]) -> tuple[Patch, Patch]:
-    """Patches that redraw only the history layers of both figures."""
+    """Patches that redraw only the history layers of both figures.
+
+    The equilibrium figure is patched in the same response as the load
+    change; the time panel in the chained readout callback, so the main
+    figure redraws first.
+    """
     _, profile = lake_from_store(lake)
     hxy = history_xy(history, profile)
     eq = Patch()
@@ -132,26 +137,27 @@ def on_action(
     """Load moved, years passed, removal or restart: advance the lake and patch the figures."""
     new, years_msg, removal_msg = step_session(ctx.triggered_id, load, history, lake, years_value, removal_value)
     if new is None:
-        return no_update, no_update, no_update, years_msg, removal_msg
-    eq, tf = history_patches(new, lake)
-    return new, eq, tf, years_msg, removal_msg
+        return no_update, no_update, years_msg, removal_msg
+    eq, _ = history_patches(new, lake)
+    return new, eq, years_msg, removal_msg
 
 
 def on_history(
     history: dict[str, Any] | None, meeting_value: list[str] | None, lake: dict[str, Any]
 ) -> tuple[Any, ...]:
-    """Readout and removal need for the current state."""
+    """Readout, removal need and time panel for the current state."""
     if history is None:
-        return no_update, no_update, no_update
+        return no_update, no_update, no_update, no_update
     params, profile = lake_from_store(lake)
     if history.get("lake_key") != lake_key(lake):
-        return no_update, no_update, no_update
+        return no_update, no_update, no_update, no_update
     load, p_now = history["load"][-1], history["p"][-1]
     analysis = analyze(params, n_points=10)
     rows = build_readout(params, profile, analysis, load, p_now, meeting=_meeting(meeting_value))
     text, kg = removal_text(params, profile, load, p_now)
-    suggestion = round(kg * 1.0 + 0.5) if kg > 0 else 0
-    return rows, text, suggestion
+    suggestion = round(kg + 0.5) if kg > 0 else 0
+    _, time_patch = history_patches(history, lake)
+    return rows, text, suggestion, time_patch
 
 
 def on_meeting(value: list[str] | None) -> tuple[str, dict[str, str]]:
@@ -185,7 +191,6 @@ def register(app: Dash) -> None:
     app.callback(
         Output(ids.HISTORY_STORE, "data", allow_duplicate=True),
         Output(ids.EQUILIBRIUM_GRAPH, "figure", allow_duplicate=True),
-        Output(ids.TIME_GRAPH, "figure", allow_duplicate=True),
         Output(ids.YEARS_MESSAGE, "children"),
         Output(ids.REMOVAL_MESSAGE, "children"),
         Input(ids.LOAD_SLIDER, "value"),
@@ -202,9 +207,11 @@ def register(app: Dash) -> None:
         Output(ids.READOUT, "children"),
         Output(ids.REMOVAL_NEEDED, "children"),
         Output(ids.REMOVAL_INPUT, "value"),
+        Output(ids.TIME_GRAPH, "figure", allow_duplicate=True),
         Input(ids.HISTORY_STORE, "data"),
         Input(ids.MEETING_TOGGLE, "value"),
         State(ids.LAKE_STORE, "data"),
+        prevent_initial_call="initial_duplicate",
     )(on_history)
     app.callback(
         Output(ids.ROOT, "className"),

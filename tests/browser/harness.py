@@ -7,6 +7,7 @@ loopback port.
 
 from __future__ import annotations
 
+import logging
 import os
 import shutil
 import threading
@@ -43,6 +44,7 @@ def chromium_path() -> str | None:
 @contextmanager
 def serve(app: Any) -> Iterator[str]:
     """Serve a Dash app on 127.0.0.1 at a free port for the duration of the block."""
+    logging.getLogger("werkzeug").setLevel(logging.ERROR)
     server = make_server("127.0.0.1", 0, app.server, threaded=True)
     thread = threading.Thread(target=server.serve_forever, daemon=True)
     thread.start()
