@@ -15,27 +15,23 @@ from __future__ import annotations
 import json
 import os
 import statistics
-import sys
 import tempfile
 import time
 from collections import defaultdict
-from pathlib import Path
 
-sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+from flask import g, request
 
-from flask import g, request  # noqa: E402
-
-from app.callbacks import history_patches, on_lake, step_session  # noqa: E402
-from app.session import lake_to_store, new_history  # noqa: E402
-from model.demo import DEMO_PARAMETERS, DEMO_PROFILE  # noqa: E402
-from tests.browser.harness import CHROMIUM_FLAGS, chromium_path, serve  # noqa: E402
+from app.callbacks import history_patches, on_lake, step_session
+from app.session import lake_to_store, new_history
+from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
+from tests.browser.harness import CHROMIUM_FLAGS, chromium_path, serve
 
 N_CHANGES = 50
 
 
 def pct(values: list[float], q: float) -> float:
     s = sorted(values)
-    return s[min(len(s) - 1, int(round(q * (len(s) - 1))))]
+    return s[min(len(s) - 1, round(q * (len(s) - 1)))]
 
 
 def server_side() -> tuple[float, float]:
