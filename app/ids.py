@@ -28,6 +28,10 @@ REMOVAL_MESSAGE = "removal-message"
 EQUILIBRIUM_GRAPH = "equilibrium-graph"
 TIME_GRAPH = "time-graph"
 READOUT = "readout"
+STATE_WORD = "state-word"
+REGIME_WORDS = "regime-words"
+TIPPING_WORDS = "tipping-words"
+RECOVERY_WORDS = "recovery-words"
 
 # lake and model settings
 SETTINGS_PANEL = "settings-panel"

@@ -7,6 +7,8 @@ from dash import html
 from model.equilibrium import LakeAnalysis, read_state, removal_needed, safety_margin
 from model.params import LakeParameters, LakeProfile
 
+from . import ids
+
 STATE_WORDS = {
     "clear": ("Clear water", "state-clear"),
     "turbid": ("Turbid, algae-dominated", "state-turbid"),
@@ -52,13 +54,16 @@ def build_readout(
         moving = f" (still moving towards {target:.0f} µg/L)"
     rows = [
         html.Div(
-            [html.Span(word, className=f"state-badge {css}", id="state-word"), html.Span(f" TP {tp:.0f} µg/L{moving}")],
+            [
+                html.Span(word, className=f"state-badge {css}", id=ids.STATE_WORD),
+                html.Span(f" TP {tp:.0f} µg/L{moving}"),
+            ],
             className="readout-row readout-state",
         ),
         html.Div(
             (PLAIN_REGIME_WORDS if meeting else REGIME_WORDS)[analysis.regime],
             className="readout-row",
-            id="regime-words",
+            id=ids.REGIME_WORDS,
         ),
     ]
     today = profile.load_kg_yr
@@ -72,7 +77,7 @@ def build_readout(
             margin = f"the current load {_kg(load)} is {_kg(-sm.kg_per_yr)} above it."
         rows.append(
             html.Div(
-                f"Tipping load {_kg(analysis.tipping_load)}: {margin}", className="readout-row", id="tipping-words"
+                f"Tipping load {_kg(analysis.tipping_load)}: {margin}", className="readout-row", id=ids.TIPPING_WORDS
             )
         )
         rec = analysis.recovery_load
@@ -83,7 +88,7 @@ def build_readout(
                 html.Div(
                     f"Recovery by load cuts alone needs a load below {_kg(rec)}{cut_text}.",
                     className="readout-row",
-                    id="recovery-words",
+                    id=ids.RECOVERY_WORDS,
                 )
             )
         else:
@@ -99,7 +104,7 @@ def build_readout(
                     "No load cut alone will restore this lake once it is turbid: the turbid state "
                     "persists even at zero load." + extra,
                     className="readout-row readout-warning",
-                    id="recovery-words",
+                    id=ids.RECOVERY_WORDS,
                 )
             )
     else:
@@ -107,7 +112,7 @@ def build_readout(
             html.Div(
                 "No tipping load: cutting the load lowers lake phosphorus smoothly.",
                 className="readout-row",
-                id="tipping-words",
+                id=ids.TIPPING_WORDS,
             )
         )
     return rows
