@@ -346,14 +346,14 @@ def test_precautionary_load_from_a_scenario() -> None:
     ],
 )
 def test_bad_values_name_the_field(make, fragment: str) -> None:
-    with pytest.raises(ValueError, match=None) as info:
+    with pytest.raises(ValueError) as info:
         make()
     assert fragment in str(info.value)
 
 
 def test_no_folds_needs_a_fixed_threshold() -> None:
     reversible = ScenarioLake(LakeParameters(2.0 - 1e-9, 1.0, 1.0, 2.0), 1.0e6, 1.0)
-    with pytest.raises(ValueError, match="scenarios\\[0\\].clear_threshold must be a TP"):
+    with pytest.raises(ValueError, match=r"scenarios\[0\]\.clear_threshold must be a TP"):
         Plan(reversible, (Scenario("a", 5, ConstantLoad(0.1)),))
     plan = Plan(reversible, (Scenario("a", 5, ConstantLoad(0.1), clear_threshold=0.5),))
     assert compare_plan(plan).results[0].p_clear[0] == 0.0  # starts at 1 µg/L, above 0.5
