@@ -108,7 +108,6 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy.optimize import least_squares
 from scipy.special import expit
-from scipy.stats import shapiro
 
 from .equilibrium import Regime, folds
 from .monitoring import MonitoringSeries
@@ -589,6 +588,8 @@ def _diagnostics(res: NDArray[np.float64], n_par: int = 4) -> ResidualDiagnostic
     denom = float(np.sum(c * c))
     rho = float(np.sum(c[1:] * c[:-1]) / denom) if denom > 0 else 0.0
     if n >= 3 and denom > 0:
+        from scipy.stats import shapiro  # imported here: scipy.stats is slow to import
+
         sw = shapiro(res)
         w, pv = float(sw.statistic), float(sw.pvalue)
     else:
