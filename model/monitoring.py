@@ -482,7 +482,10 @@ def _cell_range(col: str, v: float, cell: str, line: int) -> str | None:
         if v != math.floor(v):
             return f"{where}: {cell!r} is not a whole year; give the calendar year, such as 1998"
         if not _YEAR_RANGE[0] <= v <= _YEAR_RANGE[1]:
-            return f"{where}: {cell!r} is not a calendar year between {_YEAR_RANGE[0]} and {_YEAR_RANGE[1]}"
+            return (
+                f"{where}: {cell!r} is not a calendar year between {_YEAR_RANGE[0]} and {_YEAR_RANGE[1]}; "
+                "give the full year, such as 1998"
+            )
         return None
     if v < 0.0:
         return f"{where}: {cell!r} is negative; loads and concentrations are never below zero — check the sign"
