@@ -152,7 +152,7 @@ def _range_text(lo: float | None, hi: float | None, lo_open: bool, hi_open: bool
         if lo_open or hi_open:
             left = "greater than" if lo_open else "at least"
             right = "below" if hi_open else "at most"
-            return f"{left} {_g(lo)} and {right} {_g(hi)} (between {_g(lo)} and {_g(hi)})"
+            return f"{left} {_g(lo)} and {right} {_g(hi)}"
         return f"between {_g(lo)} and {_g(hi)}"
     if lo is not None:
         return f"greater than {_g(lo)}" if lo_open else f"at least {_g(lo)}"
@@ -175,7 +175,8 @@ def _num(
     text = _range_text(lo, hi, lo_open, hi_open)
     u = f" {unit}" if unit else ""
     if isinstance(value, bool) or not isinstance(value, int | float | np.integer | np.floating):
-        raise ValueError(f"{name} must be a number {text}{u}; got {value!r}")
+        kind = "a finite number" if lo is None and hi is None else f"a number ({text})"
+        raise ValueError(f"{name} must be {kind}{u}; got {value!r}")
     v = float(value)
     bad = not math.isfinite(v)
     if lo is not None and (v < lo or (lo_open and v == lo)):
