@@ -397,7 +397,11 @@ def parse_monitoring(source: bytes | bytearray | memoryview | str | os.PathLike[
         raise MonitoringError(
             f"line {last_line + 1}: the CSV cannot be read ({exc}); check the quotation marks on that line"
         ) from None
-    assert header is not None  # the text is not blank, so some row was read
+    if header is None:
+        raise MonitoringError(
+            f"the file holds only comment lines or empty cells; it needs a header line {_HEADER_HINT} and one row "
+            "per year below it"
+        )
 
     if len(header) == 1:
         only = header[0]

@@ -255,3 +255,19 @@ def test_demo_record_tells_its_story() -> None:
     sd_resid = np.log(s.secchi_m) - (60.0 - tsi) / 14.41
     assert abs(chl_resid.mean()) < 0.15 and 0.1 < chl_resid.std() < 0.35
     assert abs(sd_resid.mean()) < 0.12 and 0.07 < sd_resid.std() < 0.3
+
+
+@pytest.mark.parametrize("raw", [b"#", b"# only a comment\n", b",,,\n,,\n"])
+def test_comments_or_empty_cells_only(raw: bytes) -> None:
+    # Found by the arbitrary-bytes property test above.
+    with pytest.raises(MonitoringError, match="only comment lines or empty cells"):
+        parse_monitoring(raw)
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.text(alphabet='0123456789.,-+e"<>; \n\r\t#', max_size=300))
+def test_csv_like_noise_after_a_good_header_gives_a_message(body: str) -> None:
+    try:
+        parse_monitoring(("year,load_kg,tp_ug_l,secchi_m\n" + body).encode())
+    except MonitoringError as exc:
+        assert str(exc) and "\n" not in str(exc)
