@@ -14,8 +14,10 @@ import numpy as np
 import plotly.graph_objects as go
 from plotly.subplots import make_subplots
 
+from model.clarity import OECD_CLASSES, expected_secchi
 from model.equilibrium import LakeAnalysis
 from model.params import LakeProfile
+from model.regime_map import RegimeMap
 
 #: fixed trace order of the equilibrium figure
 EQ_TRACES = ("lower", "middle", "upper", "folds", "observed", "history", "current")
@@ -182,18 +184,19 @@ def equilibrium_figure(
             line_width=0,
             layer="below",
             annotation_text=lab["band"],
-            annotation_position="top left",
+            annotation_position="bottom left",
             annotation_font_size=sty["font"] - 3,
         )
     fig.add_vline(
         x=present_load,
         line={"color": TODAY, "width": 2, "dash": "dot"},
         annotation_text=lab["today"],
-        annotation_position="bottom right",
+        annotation_position="top right",
         annotation_font={"size": sty["font"] - 3, "color": TODAY},
     )
     y_top = float(profile.concentration(np.max(analysis.curve.p))) if len(analysis.curve) else 1.0
     y_top = max(y_top, max(hxy["tp"]) if hxy["tp"] else 0.0) * 1.05
+    _trophic_bands(fig, y_top, sty["font"] - 4, meeting)
     fig.update_layout(
         template="plotly_white",
         font={"size": sty["font"]},
@@ -205,6 +208,37 @@ def equilibrium_figure(
         uirevision="equilibrium",
     )
     return fig
+
+
+#: OECD (1982) fixed TP boundaries [µg L⁻¹] between the classes of model.clarity.OECD_CLASSES
+OECD_TP_EDGES = (4.0, 10.0, 35.0, 100.0)
+
+
+def _trophic_bands(fig: go.Figure, y_top: float, font: int, meeting: bool) -> None:
+    """Label the TP axis with OECD (1982) trophic classes and Carlson (1977) expected Secchi depths."""
+    edges = [0.0, *OECD_TP_EDGES, np.inf]
+    for i, name in enumerate(OECD_CLASSES):
+        lo, hi = edges[i], min(edges[i + 1], y_top)
+        if lo >= y_top or hi - lo < 0.04 * y_top:
+            continue
+        if lo > 0:
+            fig.add_hline(y=lo, line={"color": "rgba(90,90,90,0.35)", "width": 1, "dash": "dot"}, layer="below")
+        sd_hi = float(expected_secchi(max(lo, 0.5)))
+        sd_lo = float(expected_secchi(hi))
+        secchi = f"see {sd_lo:.1f}–{sd_hi:.1f} m down" if meeting else f"Secchi ≈ {sd_lo:.1f}–{sd_hi:.1f} m"
+        if lo == 0:
+            secchi = f"see over {sd_lo:.1f} m down" if meeting else f"Secchi > {sd_lo:.1f} m"
+        fig.add_annotation(
+            x=1.0,
+            xref="paper",
+            xanchor="right",
+            y=(lo + hi) / 2,
+            yref="y",
+            showarrow=False,
+            text=f"{name} · {secchi}",
+            font={"size": font, "color": "#555"},
+            bgcolor="rgba(255,255,255,0.6)",
+        )
 
 
 def time_figure(history: dict[str, Sequence[float]], profile: LakeProfile, *, meeting: bool = False) -> go.Figure:
@@ -251,4 +285,127 @@ def time_figure(history: dict[str, Sequence[float]], profile: LakeProfile, *, me
     fig.update_yaxes(title_text=lab["tp"], row=1, col=1, rangemode="tozero")
     fig.update_yaxes(title_text=lab["load"], row=2, col=1, rangemode="tozero")
     fig.update_xaxes(title_text=lab["year"], row=2, col=1)
+    return fig
+
+
+REGIME_FILL = {
+    "reversible": "rgba(31, 111, 168, 0.07)",
+    "hysteretic": "rgba(232, 180, 60, 0.10)",
+    "irreversible": "rgba(163, 58, 31, 0.08)",
+}
+
+
+def regime_map_figure(
+    rmap: RegimeMap,
+    *,
+    load_now: float,
+    cloud: tuple[Sequence[float], Sequence[float]] | None = None,
+    meeting: bool = False,
+) -> go.Figure:
+    """The (load, parameter) plane: regime bands, fold curves, the bistable wedge, the lake and its fitted cloud."""
+    sty = _style(meeting)
+    axis_title = {
+        "loss_rate": "Loss rate s [yr⁻¹]" if not meeting else "How fast the lake loses phosphorus (per year)",
+        "recycling_max": "Maximum recycling r [kg yr⁻¹]" if not meeting else "Phosphorus released from mud (kg/yr)",
+    }[rmap.axis]
+    fig = go.Figure()
+    lo_p, hi_p = rmap.parameter_range
+    loads = np.concatenate([rmap.tipping.load, rmap.recovery.load, [load_now, 0.0]])
+    x_hi = max(float(np.nanmax(loads)), load_now) * 1.15
+    x_lo = max(min(0.0, float(np.nanmin(loads))) * 1.05, -0.6 * x_hi)
+    for reg, b_lo, b_hi in rmap.bands:
+        fig.add_hrect(
+            y0=b_lo,
+            y1=b_hi,
+            fillcolor=REGIME_FILL[reg],
+            line_width=0,
+            layer="below",
+            annotation_text=reg,
+            annotation_position="top right",
+            annotation_font={"size": sty["font"] - 2, "color": "#444"},
+        )
+    if x_lo < 0:
+        fig.add_vrect(
+            x0=x_lo,
+            x1=0.0,
+            fillcolor="rgba(120,120,120,0.12)",
+            line_width=0,
+            layer="below",
+            annotation_text="below zero load",
+            annotation_position="bottom left",
+            annotation_font={"size": sty["font"] - 4, "color": "#555"},
+        )
+    fig.add_trace(
+        go.Scatter(
+            x=rmap.fold_load,
+            y=rmap.fold_parameter,
+            mode="lines",
+            fill="toself",
+            fillcolor=BISTABLE,
+            line={"color": "rgba(0,0,0,0)"},
+            hoverinfo="skip",
+            name="two stable states",
+            showlegend=True,
+        )
+    )
+    fig.add_trace(
+        go.Scatter(
+            x=rmap.tipping.load,
+            y=rmap.tipping.parameter,
+            mode="lines",
+            name="tipping fold",
+            line={"color": CLEAR, "width": sty["line"]},
+            hovertemplate="tipping fold: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
+        )
+    )
+    fig.add_trace(
+        go.Scatter(
+            x=rmap.recovery.load,
+            y=rmap.recovery.parameter,
+            mode="lines",
+            name="recovery fold",
+            line={"color": TURBID, "width": sty["line"]},
+            hovertemplate="recovery fold: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
+        )
+    )
+    if rmap.cusp is not None and lo_p <= rmap.cusp.parameter <= hi_p:
+        fig.add_trace(
+            go.Scatter(
+                x=[rmap.cusp.load],
+                y=[rmap.cusp.parameter],
+                mode="markers",
+                name="cusp",
+                marker={"symbol": "diamond", "size": sty["marker"], "color": FOLD},
+            )
+        )
+    if cloud is not None and len(cloud[0]):
+        fig.add_trace(
+            go.Scatter(
+                x=list(cloud[0]),
+                y=list(cloud[1]),
+                mode="markers",
+                name="fitted lakes (bootstrap)",
+                marker={"size": 4, "color": "rgba(91, 74, 138, 0.35)"},
+                hoverinfo="skip",
+            )
+        )
+    fig.add_trace(
+        go.Scatter(
+            x=[load_now],
+            y=[rmap.lake_parameter],
+            mode="markers",
+            name="this lake now",
+            marker={"size": sty["marker"] * 1.4, "color": CURRENT, "line": {"color": "white", "width": 2}},
+            hovertemplate="this lake: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
+        )
+    )
+    fig.update_layout(
+        template="plotly_white",
+        font={"size": sty["font"]},
+        height=620 if meeting else 540,
+        margin={"l": 80, "r": 20, "t": 40, "b": 60},
+        xaxis={"title": _labels(meeting)["x"], "range": [x_lo, x_hi]},
+        yaxis={"title": axis_title, "range": [lo_p, hi_p]},
+        legend={"orientation": "h", "yanchor": "bottom", "y": 1.01, "x": 0.0},
+    )
     return fig

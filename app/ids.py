@@ -50,3 +50,42 @@ FIELDS = {
         "load_kg_yr",
     )
 }
+
+# views (tabs)
+VIEW_TABS = "view-tabs"
+VIEW_LAKE = "view-lake"
+VIEW_RECORD = "view-record"
+VIEW_PLANS = "view-plans"
+VIEW_MAP = "view-map"
+#: tab value -> view container id
+VIEWS = {"lake": VIEW_LAKE, "record": VIEW_RECORD, "plans": VIEW_PLANS, "map": VIEW_MAP}
+
+# clarity words in the readout
+CLARITY_WORDS = "clarity-words"
+HEALTH_WORDS = "health-words"
+
+# regime map view
+MAP_GRAPH = "map-graph"
+MAP_AXIS = "map-axis"
+MAP_NOTE = "map-note"
+
+# monitoring record view (fit to data, warning signs)
+RECORD_STORE = "record-store"  # the monitoring series on show
+FIT_STORE = "fit-store"  # the last fit: parameters, bands, regime probabilities, bootstrap cloud
+RECORD_UPLOAD = "record-upload"
+RECORD_MESSAGE = "record-message"
+RECORD_SUMMARY = "record-summary"
+RECORD_VOLUME = "record-volume"
+RECORD_REPLICATES = "record-replicates"
+RECORD_FIT_BUTTON = "record-fit"
+RECORD_CANCEL_BUTTON = "record-cancel"
+RECORD_PROGRESS = "record-progress"
+RECORD_PROGRESS_TEXT = "record-progress-text"
+RECORD_FIT_RESULT = "record-fit-result"
+RECORD_USE_BUTTON = "record-use-fit"
+RECORD_GRAPH = "record-graph"
+RECORD_CLARITY_GRAPH = "record-clarity-graph"
+WARNING_GRAPH = "warning-graph"
+WARNING_WORDS = "warning-words"
+
+# ---- plans view: ids below this line belong to the plans view modules ----

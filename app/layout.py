@@ -10,7 +10,8 @@ from dash import dcc, html
 from model.equilibrium import LakeAnalysis
 from model.params import LakeParameters, LakeProfile
 
-from . import ids
+from . import ids, view_map, view_plans, view_record
+from .layout_parts import graph_config
 from .session import Lake, lake_from_store
 from .validate import FIELD_RULES
 
@@ -24,15 +25,6 @@ TREATMENT_CAUTION = (
     "from the responsible authority and must be designed and applied by licensed practitioners. "
     "This tool only estimates the P mass involved."
 )
-
-
-def graph_config(filename: str) -> Any:
-    """Plotly config: the modebar keeps its image download (PNG at twice the size)."""
-    return {
-        "displaylogo": False,
-        "toImageButtonOptions": {"format": "png", "scale": 2, "filename": filename},
-        "modeBarButtonsToRemove": ["lasso2d", "select2d"],
-    }
 
 
 def _nice(x: float) -> float:
@@ -118,6 +110,8 @@ def build_layout(lake: Lake) -> html.Div:
         [
             dcc.Store(id=ids.LAKE_STORE, storage_type="session", data=lake),
             dcc.Store(id=ids.HISTORY_STORE, storage_type="session"),
+            dcc.Store(id=ids.RECORD_STORE, storage_type="session"),
+            dcc.Store(id=ids.FIT_STORE, storage_type="session"),
             html.Header(
                 [
                     html.Div(
@@ -136,99 +130,124 @@ def build_layout(lake: Lake) -> html.Div:
                 className="top-bar",
             ),
             html.Div(CAUTION, className="caution-banner", role="note"),
-            html.Main(
-                [
-                    html.Section(
-                        [
-                            html.Div(
-                                [html.H2("What the lake is doing"), html.Div(id=ids.READOUT, className="readout")],
-                                className="card",
-                            ),
-                            html.Div(
-                                [
-                                    html.H2("Take phosphorus out of the lake"),
-                                    html.Div(id=ids.REMOVAL_NEEDED, className="readout-row"),
-                                    html.Div(
-                                        [
-                                            html.Label("P to remove [kg]", htmlFor=ids.REMOVAL_INPUT),
-                                            dcc.Input(
-                                                id=ids.REMOVAL_INPUT,
-                                                type="number",
-                                                min=0,
-                                                value=0,
-                                                className="removal-input",
-                                            ),
-                                            html.Button("Remove it now", id=ids.REMOVAL_BUTTON, n_clicks=0),
-                                        ],
-                                        className="control-row",
-                                    ),
-                                    html.Div(id=ids.REMOVAL_MESSAGE, className="field-message", role="alert"),
-                                    html.P(TREATMENT_CAUTION, className="treatment-caution"),
-                                ],
-                                className="card",
-                            ),
-                        ],
-                        className="controls",
-                    ),
-                    html.Section(
-                        [
-                            html.Div(
-                                [
-                                    html.H2("Phosphorus load"),
-                                    html.P(
-                                        "Drag, use the arrow keys, or type a value (kg P per year).", className="hint"
-                                    ),
-                                    dcc.Slider(
-                                        id=ids.LOAD_SLIDER,
-                                        min=0,
-                                        max=1,
-                                        value=profile.load_kg_yr,
-                                        updatemode="mouseup",
-                                        tooltip={"placement": "bottom", "always_visible": False},
-                                        className="load-slider",
-                                    ),
-                                    html.Div(
-                                        [
-                                            html.Label("Years per change", htmlFor=ids.YEARS_INPUT),
-                                            dcc.Input(
-                                                id=ids.YEARS_INPUT,
-                                                type="number",
-                                                min=1,
-                                                max=200,
-                                                step=1,
-                                                value=5,
-                                                debounce=True,
-                                                className="years-input",
-                                            ),
-                                            html.Button("Let the years pass", id=ids.WAIT_BUTTON, n_clicks=0),
-                                            html.Button(
-                                                "Start the history again",
-                                                id=ids.RESET_BUTTON,
-                                                n_clicks=0,
-                                                className="secondary",
-                                            ),
-                                        ],
-                                        className="control-row",
-                                    ),
-                                    html.Div(id=ids.YEARS_MESSAGE, className="field-message", role="alert"),
-                                ],
-                                className="card",
-                            ),
-                            dcc.Graph(
-                                id=ids.EQUILIBRIUM_GRAPH,
-                                config=graph_config("turnback-equilibria"),
-                            ),
-                            dcc.Graph(
-                                id=ids.TIME_GRAPH,
-                                config=graph_config("turnback-history"),
-                            ),
-                        ],
-                        className="figures",
-                    ),
+            dcc.Tabs(
+                id=ids.VIEW_TABS,
+                value="lake",
+                children=[
+                    dcc.Tab(label="The lake now", value="lake"),
+                    dcc.Tab(label="Monitoring record", value="record"),
+                    dcc.Tab(label="Plans compared", value="plans"),
+                    dcc.Tab(label="Regime map", value="map"),
                 ],
-                className="main-grid",
+                className="view-tabs",
+                persistence=True,
+                persistence_type="session",
             ),
-            settings_panel(params, profile),
+            html.Div(
+                [
+                    html.Main(
+                        [
+                            html.Section(
+                                [
+                                    html.Div(
+                                        [
+                                            html.H2("What the lake is doing"),
+                                            html.Div(id=ids.READOUT, className="readout"),
+                                        ],
+                                        className="card",
+                                    ),
+                                    html.Div(
+                                        [
+                                            html.H2("Take phosphorus out of the lake"),
+                                            html.Div(id=ids.REMOVAL_NEEDED, className="readout-row"),
+                                            html.Div(
+                                                [
+                                                    html.Label("P to remove [kg]", htmlFor=ids.REMOVAL_INPUT),
+                                                    dcc.Input(
+                                                        id=ids.REMOVAL_INPUT,
+                                                        type="number",
+                                                        min=0,
+                                                        value=0,
+                                                        className="removal-input",
+                                                    ),
+                                                    html.Button("Remove it now", id=ids.REMOVAL_BUTTON, n_clicks=0),
+                                                ],
+                                                className="control-row",
+                                            ),
+                                            html.Div(id=ids.REMOVAL_MESSAGE, className="field-message", role="alert"),
+                                            html.P(TREATMENT_CAUTION, className="treatment-caution"),
+                                        ],
+                                        className="card",
+                                    ),
+                                ],
+                                className="controls",
+                            ),
+                            html.Section(
+                                [
+                                    html.Div(
+                                        [
+                                            html.H2("Phosphorus load"),
+                                            html.P(
+                                                "Drag, use the arrow keys, or type a value (kg P per year).",
+                                                className="hint",
+                                            ),
+                                            dcc.Slider(
+                                                id=ids.LOAD_SLIDER,
+                                                min=0,
+                                                max=1,
+                                                value=profile.load_kg_yr,
+                                                updatemode="mouseup",
+                                                tooltip={"placement": "bottom", "always_visible": False},
+                                                className="load-slider",
+                                            ),
+                                            html.Div(
+                                                [
+                                                    html.Label("Years per change", htmlFor=ids.YEARS_INPUT),
+                                                    dcc.Input(
+                                                        id=ids.YEARS_INPUT,
+                                                        type="number",
+                                                        min=1,
+                                                        max=200,
+                                                        step=1,
+                                                        value=5,
+                                                        debounce=True,
+                                                        className="years-input",
+                                                    ),
+                                                    html.Button("Let the years pass", id=ids.WAIT_BUTTON, n_clicks=0),
+                                                    html.Button(
+                                                        "Start the history again",
+                                                        id=ids.RESET_BUTTON,
+                                                        n_clicks=0,
+                                                        className="secondary",
+                                                    ),
+                                                ],
+                                                className="control-row",
+                                            ),
+                                            html.Div(id=ids.YEARS_MESSAGE, className="field-message", role="alert"),
+                                        ],
+                                        className="card",
+                                    ),
+                                    dcc.Graph(
+                                        id=ids.EQUILIBRIUM_GRAPH,
+                                        config=graph_config("turnback-equilibria"),
+                                    ),
+                                    dcc.Graph(
+                                        id=ids.TIME_GRAPH,
+                                        config=graph_config("turnback-history"),
+                                    ),
+                                ],
+                                className="figures",
+                            ),
+                        ],
+                        className="main-grid",
+                    ),
+                    settings_panel(params, profile),
+                ],
+                id=ids.VIEW_LAKE,
+            ),
+            html.Div(view_record.build_view(), id=ids.VIEW_RECORD, style={"display": "none"}),
+            html.Div(view_plans.build_view(), id=ids.VIEW_PLANS, style={"display": "none"}),
+            html.Div(view_map.build_view(), id=ids.VIEW_MAP, style={"display": "none"}),
             html.Footer(
                 "Model after Carpenter, Ludwig & Brock (1999), Ecological Applications 9:751–771. "
                 "Demo lake and its numbers are invented.",

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from dash import html
 
+from model.clarity import TP_MAX_UG_L, TP_MIN_UG_L, clarity
 from model.equilibrium import LakeAnalysis, read_state, removal_needed, safety_margin
 from model.params import LakeParameters, LakeProfile
 
@@ -60,6 +61,7 @@ def build_readout(
             ],
             className="readout-row readout-state",
         ),
+        *clarity_rows(tp, meeting),
         html.Div(
             (PLAIN_REGIME_WORDS if meeting else REGIME_WORDS)[analysis.regime],
             className="readout-row",
@@ -115,6 +117,24 @@ def build_readout(
                 id=ids.TIPPING_WORDS,
             )
         )
+    return rows
+
+
+def clarity_rows(tp: float, meeting: bool = False) -> list[html.Div]:
+    """Expected summer clarity and trophic state (Carlson 1977 TSI equivalence) and the WHO (2003) caution."""
+    if not TP_MIN_UG_L <= tp <= TP_MAX_UG_L:
+        return []
+    est = clarity(tp)
+    if meeting:
+        text = (
+            f"In summer you could expect to see about {est.secchi_m:.1f} m down into the water; "
+            f"the lake would count as {est.tsi_class}."
+        )
+    else:
+        text = est.sentence
+    rows = [html.Div(text, className="readout-row", id=ids.CLARITY_WORDS)]
+    if est.who.level != "below_guidance":
+        rows.append(html.Div(est.who.text, className="readout-row readout-warning", id=ids.HEALTH_WORDS))
     return rows
 
 

@@ -11,7 +11,7 @@ from dash import Dash, DiskcacheManager
 
 from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 
-from . import callbacks
+from . import callbacks, callbacks_map
 from .layout import build_layout
 from .session import lake_to_store
 
@@ -38,4 +38,5 @@ def create_app() -> Dash:
     )
     app.layout = build_layout(lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE))
     callbacks.register(app)
+    callbacks_map.register(app)
     return app

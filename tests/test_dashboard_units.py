@@ -139,3 +139,29 @@ def test_settings_messages(field: str, value: str, fragment: str) -> None:
     # through the callback: the store is left alone
     out = on_settings(*[values[f] for f in FIELD_RULES], LAKE)
     assert out[0] is not None and out[0].__class__.__name__ == "NoUpdate"
+
+
+def test_regime_map_figure_and_view_switch() -> None:
+    from app.callbacks_map import on_view
+    from app.figures import regime_map_figure
+    from model.regime_map import regime_map
+
+    rmap = regime_map(P)
+    fig = regime_map_figure(rmap, load_now=420.0, cloud=([400.0, 430.0], [0.49, 0.51]))
+    names = [t.name for t in fig.data]
+    assert {"tipping fold", "recovery fold", "this lake now", "fitted lakes (bootstrap)"} <= set(names)
+    lake = next(t for t in fig.data if t.name == "this lake now")
+    assert tuple(lake.y) == (P.loss_rate,)
+    styles = on_view("map")
+    assert styles[list(__import__("app.ids", fromlist=["VIEWS"]).VIEWS).index("map")] == {}
+    assert sum(1 for s in styles if s == {"display": "none"}) == 3
+
+
+def test_readout_gives_clarity_and_who_caution() -> None:
+    # TP 32 µg/L: Carlson (1977) TSI equivalence gives chlorophyll about 11 µg/L, above the WHO (2003) 10 µg/L level.
+    res = analyze(P, n_points=50)
+    load = PROF.load_kg_yr
+    low = equilibria(P, load)[0]
+    rows = str(build_readout(P, PROF, res, load, low.p))
+    assert "Secchi depth about" in rows and "WHO (2003)" in rows and "local health advisories" in rows
+    assert "safe to swim" not in rows
