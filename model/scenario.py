@@ -606,7 +606,8 @@ class Scenario:
     clear_threshold : {"separatrix", "tipping_fold"} or float
         Clear-state rule (module docstring), or a fixed TP [µg L⁻¹].
     recovery_stay_years : int
-        Consecutive clear years that count as recovered (default 3).
+        Consecutive clear years that count as recovered (default 3); with a
+        horizon shorter than ``k − 1`` years no member can be confirmed recovered.
     precaution : Precaution or None
         Also solve for the precautionary load under this scenario's variability.
     description : str
@@ -668,7 +669,7 @@ class Scenario:
                 raise ValueError(f"clear_threshold must be {rules} or a TP [µg L⁻¹]; got {rule!r}")
         else:
             set_(self, "clear_threshold", _num("clear_threshold", rule, lo=0.0, lo_open=True, unit="[µg L⁻¹]"))
-        set_(self, "recovery_stay_years", _int("recovery_stay_years", self.recovery_stay_years, 1, years))
+        set_(self, "recovery_stay_years", _int("recovery_stay_years", self.recovery_stay_years, 1, MAX_YEARS))
         if self.precaution is not None and not isinstance(self.precaution, Precaution):
             raise ValueError("precaution must be a Precaution")
         set_(self, "description", _text("description", self.description, 2000, allow_empty=True))
