@@ -388,3 +388,22 @@ scenarios = st.builds(
 def test_scenario_round_trips_through_json(sc: Scenario) -> None:
     assert Scenario.from_json(sc.to_json()) == sc
     assert Plan.from_json(Plan(lake(), (sc,)).to_json()) == Plan(lake(), (sc,))
+
+
+def test_precautionary_load_reports_progress_and_can_be_cancelled() -> None:
+    seen: list[float] = []
+    precautionary_load(
+        PARAMS,
+        within_years=5,
+        max_probability=0.1,
+        variability_cv=0.3,
+        members=200,
+        rng=1,
+        progress=lambda f, m: seen.append(f),
+    )
+    assert seen == sorted(seen) and seen[-1] == 1.0
+    calls = iter([False, False, True])
+    with pytest.raises(RunCancelled):
+        precautionary_load(
+            PARAMS, within_years=5, max_probability=0.1, variability_cv=0.3, members=200, cancel=lambda: next(calls)
+        )
