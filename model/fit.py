@@ -204,7 +204,8 @@ class ParameterEstimate:
 
     ``std_error`` is the asymptotic standard error from the Jacobian,
     ``σ̂² (JᵀJ)⁻¹`` transformed by the delta method; ``None`` when the
-    estimate is at a bound or the Jacobian is singular there.
+    estimate is at a bound (``at_bound``) or the data do not inform it
+    (``identified`` False: the Jacobian is singular along it).
     """
 
     name: str
@@ -212,6 +213,7 @@ class ParameterEstimate:
     std_error: float | None
     unit: str
     at_bound: bool
+    identified: bool = True
 
 
 @dataclass(frozen=True)
@@ -597,6 +599,29 @@ def _diagnostics(res: NDArray[np.float64], n_par: int = 4) -> ResidualDiagnostic
     return ResidualDiagnostics(n=n, sd=sd, lag1_autocorrelation=rho, shapiro_w=w, shapiro_p=pv)
 
 
+def _covariance(jac: NDArray[np.float64], sigma2: float, rcond: float) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
+    """``σ² (JᵀJ)⁻¹`` and which parameters the Jacobian cannot inform.
+
+    ``JᵀJ`` is scaled to unit diagonal; a parameter is *unidentified* when
+    its column of ``J`` is zero or it loads (|component| > 0.05) on an
+    eigenvector whose eigenvalue is below ``rcond`` times the largest.  A
+    plain pseudo-inverse would give such a parameter a variance near zero,
+    a false precision.
+    """
+    a = jac.T @ jac
+    d = np.sqrt(np.maximum(np.diag(a), 0.0))
+    dead = d <= 1e-12 * max(float(d.max()), 1e-300)
+    d_safe = np.where(dead, 1.0, d)
+    a_s = a / np.outer(d_safe, d_safe)
+    a_s[dead, :] = 0.0
+    a_s[:, dead] = 0.0
+    w, v = np.linalg.eigh(a_s)
+    null = w < rcond * max(float(w.max()), 1e-300)
+    involved = dead | np.any(np.abs(v[:, null]) > 0.05, axis=1)
+    cov = sigma2 * np.linalg.pinv(a_s) / np.outer(d_safe, d_safe)
+    return cov, involved
+
+
 def _as_1d(name: str, values: ArrayLike) -> NDArray[np.float64]:
     arr = np.asarray(values, dtype=float)
     if arr.ndim != 1:
@@ -618,6 +643,7 @@ def fit_transitions(
     ftol: float = 1e-12,
     xtol: float = 1e-12,
     max_nfev: int = 500,
+    rcond: float = 1e-10,
 ) -> PointFit:
     r"""Conditional least-squares fit of the annual map to observed transitions.
 
@@ -641,6 +667,10 @@ def fit_transitions(
         Source of the random starts.
     ftol, xtol, max_nfev
         Passed to :func:`scipy.optimize.least_squares`.
+    rcond : float
+        Relative eigenvalue of the scaled ``JᵀJ`` below which a direction
+        counts as uninformed by the data; parameters along it get no
+        standard error.
 
     Returns
     -------
@@ -701,18 +731,20 @@ def fit_transitions(
     j = jac(theta)
     span = hi - lo
     at_bound = (theta <= lo + 1e-6 * span) | (theta >= hi - 1e-6 * span)
-    cov = sigma2 * np.linalg.pinv(j.T @ j)
+    cov, unidentified = _covariance(j, sigma2, rcond)
     estimates = []
     params = _theta_to_params(theta)
     values = (params.s, params.r, params.m, params.q)
     for k in range(4):
         var = float(cov[k, k])
         se: float | None
-        if at_bound[k] or not math.isfinite(var) or var <= 0:
+        if at_bound[k] or unidentified[k] or not math.isfinite(var) or var <= 0:
             se = None
         else:
             se = math.sqrt(var) * (1.0 if k == 0 else values[k])
-        estimates.append(ParameterEstimate(PARAM_NAMES[k], values[k], se, _UNITS[k], bool(at_bound[k])))
+        estimates.append(
+            ParameterEstimate(PARAM_NAMES[k], values[k], se, _UNITS[k], bool(at_bound[k]), not bool(unidentified[k]))
+        )
     return PointFit(
         status="ok",
         message=f"fitted {n} annual transitions from {len(starts)} starts",
@@ -1056,6 +1088,11 @@ def fit_lake(
             warnings.append(
                 f"The fitted {plain} ({est.value:.4g} {est.unit}) is at the edge of its allowed range, so the "
                 "data do not pin it down."
+            )
+        elif not est.identified:
+            warnings.append(
+                f"The record carries no information on the {plain} near its fitted value ({est.value:.4g} "
+                f"{est.unit}); it has no standard error."
             )
     diag = point.diagnostics
     assert diag is not None

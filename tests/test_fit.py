@@ -156,6 +156,7 @@ def test_demo_record_brackets_the_parameters_it_was_made_with() -> None:
         assert band.low <= true <= band.high
     assert res.regime_probability.hysteretic > 0.9
     assert not any("never shows" in w for w in res.warnings)
+    assert all(e.std_error is not None and e.identified for e in res.point.estimates)
 
 
 def test_same_seed_same_answer_and_progress_is_reported() -> None:
@@ -203,6 +204,10 @@ def test_record_that_never_turns_turbid_warns_about_the_recovery_load() -> None:
     assert res.recovery_load.estimate is None and res.tipping_load.estimate is None
     assert res.recovery_load.low is not None and res.recovery_load.high is not None
     assert res.recovery_load.high - res.recovery_load.low > 0.5 * REC.load  # a wide band, not a number
+    # No false precision on what the record cannot inform: a standard error is either withheld or sizeable.
+    assert not all(e.identified for e in res.point.estimates)
+    for e in res.point.estimates:
+        assert e.std_error is None or e.std_error > 1e-3 * e.value, e
 
 
 def test_record_that_stays_turbid_warns_about_the_tipping_load() -> None:

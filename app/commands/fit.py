@@ -26,7 +26,7 @@ import sys
 from pathlib import Path
 from typing import Any
 
-from model.fit import DEFAULT_REPLICATES, MIN_REPLICATES, FitResult, fit_monitoring
+from model.fit import DEFAULT_REPLICATES, MIN_REPLICATES, FitResult, ParameterEstimate, fit_monitoring
 from model.monitoring import MonitoringSeries, parse_monitoring
 from model.params import LakeProfile, load_profile_file
 
@@ -95,10 +95,11 @@ def _progress_printer() -> Any:
     return report
 
 
-def _pm(value: float, se: float | None, fmt: str) -> str:
-    if se is None:
-        return f"{value:{fmt}} (at a bound, no standard error)"
-    return f"{value:{fmt}} ± {se:{fmt}}"
+def _pm(est: ParameterEstimate, fmt: str) -> str:
+    if est.std_error is not None:
+        return f"{est.value:{fmt}} ± {est.std_error:{fmt}}"
+    why = "at a bound" if est.at_bound else "not identified by the data"
+    return f"{est.value:{fmt}} ({why}, no standard error)"
 
 
 def _cell(v: float | None) -> str:
@@ -122,12 +123,10 @@ def _table(res: FitResult, series: MonitoringSeries, source: str, profile: LakeP
     lines.append("Fitted annual map (conditional least squares, lognormal process error)")
     est = {e.name: e for e in res.point.estimates}
     s, r, m, q = (est[k] for k in ("loss_rate", "recycling_max", "recycling_half", "recycling_exponent"))
-    lines.append(f"  loss rate s                 {_pm(s.value, s.std_error, '.3g')} /yr")
-    lines.append(f"  maximum recycling r         {_pm(r.value, r.std_error, ',.0f')} kg/yr")
-    lines.append(
-        f"  recycling half-saturation m {_pm(m.value, m.std_error, ',.0f')} kg  ({m.value * 1e6 / v:.1f} µg/L TP)"
-    )
-    lines.append(f"  recycling exponent q        {_pm(q.value, q.std_error, '.3g')}")
+    lines.append(f"  loss rate s                 {_pm(s, '.3g')} /yr")
+    lines.append(f"  maximum recycling r         {_pm(r, ',.0f')} kg/yr")
+    lines.append(f"  recycling half-saturation m {_pm(m, ',.0f')} kg  ({m.value * 1e6 / v:.1f} µg/L TP)")
+    lines.append(f"  recycling exponent q        {_pm(q, '.3g')}")
     d = res.point.diagnostics
     if d is not None:
         lines.append(
