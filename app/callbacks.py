@@ -11,13 +11,22 @@ from model.equilibrium import analyze
 from . import ids
 from .figures import EQ_CURRENT, EQ_HISTORY, TIME_LOAD, TIME_TP, equilibrium_figure, history_xy, time_figure
 from .layout import slider_config
-from .readout import build_readout, removal_text
+from .readout import build_readout, fit_rows, removal_text
 from .session import MAX_YEARS, advance, lake_from_store, lake_key, new_history, remove_p
 from .validate import FIELD_RULES, check_settings
 
 
 def _meeting(value: list[str] | None) -> bool:
     return bool(value) and "on" in (value or [])
+
+
+def _same_lake(a: dict[str, Any], b: dict[str, Any], rtol: float = 1e-5) -> bool:
+    """Equal parameters and profile numbers to the settings fields' rounding."""
+    pa, fa = lake_from_store(a)
+    pb, fb = lake_from_store(b)
+    xa = [*pa.to_dict().values(), fa.area_km2, fa.mean_depth_m, fa.load_kg_yr]
+    xb = [*pb.to_dict().values(), fb.area_km2, fb.mean_depth_m, fb.load_kg_yr]
+    return all(abs(u - v) <= rtol * max(abs(u), abs(v), 1e-300) for u, v in zip(xa, xb, strict=True))
 
 
 def on_settings(*args: Any) -> tuple[Any, ...]:
@@ -29,14 +38,36 @@ def on_settings(*args: Any) -> tuple[Any, ...]:
     msgs = [messages[f] for f in FIELD_RULES]
     if new_lake is None:
         return (no_update, *msgs, "Not applied: fix the field marked in red. The lake shown is the last valid one.")
-    if new_lake == lake:
+    if lake and _same_lake(new_lake, lake):
         return (no_update, *msgs, "")
     return (new_lake, *msgs, "Applied. The history starts again for the changed lake.")
 
 
-def on_lake(lake: dict[str, Any], meeting_value: list[str] | None, history: dict[str, Any] | None) -> tuple[Any, ...]:
-    """The lake (or the view) changed: rebuild the figures and the slider."""
+def _fit_for(lake: dict[str, Any], fit: dict[str, Any] | None) -> dict[str, Any] | None:
+    """The monitoring fit, when it belongs to this very lake."""
+    return fit if fit and fit.get("lake_key") == lake_key(lake) else None
+
+
+def field_values(lake: dict[str, Any]) -> list[str]:
+    """The settings fields' text for a lake."""
     params, profile = lake_from_store(lake)
+    values = params.to_dict() | {
+        "area_km2": profile.area_km2,
+        "mean_depth_m": profile.mean_depth_m,
+        "load_kg_yr": profile.load_kg_yr,
+    }
+    return [f"{values[f]:.6g}" for f in FIELD_RULES]
+
+
+def on_lake(
+    lake: dict[str, Any],
+    meeting_value: list[str] | None,
+    history: dict[str, Any] | None,
+    fit_data: dict[str, Any] | None,
+) -> tuple[Any, ...]:
+    """The lake (or the view) changed: rebuild the figures and the slider, show the lake in the settings."""
+    params, profile = lake_from_store(lake)
+    fit = _fit_for(lake, fit_data)
     if history is None or history.get("lake_key") != lake_key(lake):
         history_out: Any = new_history(lake)
         history = history_out
@@ -46,10 +77,20 @@ def on_lake(lake: dict[str, Any], meeting_value: list[str] | None, history: dict
     slider = slider_config(analysis, profile)
     meeting = _meeting(meeting_value)
     eq = equilibrium_figure(
-        analysis, profile, history, present_load=profile.load_kg_yr, load_max=slider["max"], meeting=meeting
+        analysis, profile, history, present_load=profile.load_kg_yr, load_max=slider["max"], meeting=meeting, fit=fit
     )
-    tf = time_figure(history, profile, meeting=meeting)
-    return (history_out, eq, tf, slider["max"], slider["step"], slider["marks"], history["load"][-1], profile.name)
+    tf = time_figure(history, profile, meeting=meeting, fit=fit)
+    return (
+        history_out,
+        eq,
+        tf,
+        slider["max"],
+        slider["step"],
+        slider["marks"],
+        history["load"][-1],
+        profile.name,
+        *field_values(lake),
+    )
 
 
 def history_patches(history: dict[str, Any], lake: dict[str, Any]) -> tuple[Patch, Patch]:
@@ -143,7 +184,10 @@ def on_action(
 
 
 def on_history(
-    history: dict[str, Any] | None, meeting_value: list[str] | None, lake: dict[str, Any]
+    history: dict[str, Any] | None,
+    meeting_value: list[str] | None,
+    lake: dict[str, Any],
+    fit_data: dict[str, Any] | None,
 ) -> tuple[Any, ...]:
     """Readout, removal need and time panel for the current state."""
     if history is None:
@@ -154,6 +198,9 @@ def on_history(
     load, p_now = history["load"][-1], history["p"][-1]
     analysis = analyze(params, n_points=10)
     rows = build_readout(params, profile, analysis, load, p_now, meeting=_meeting(meeting_value))
+    fit = _fit_for(lake, fit_data)
+    if fit:
+        rows += fit_rows(fit)
     text, kg = removal_text(params, profile, load, p_now)
     suggestion = round(kg + 0.5) if kg > 0 else 0
     _, time_patch = history_patches(history, lake)
@@ -184,9 +231,11 @@ def register(app: Dash) -> None:
         Output(ids.LOAD_SLIDER, "marks"),
         Output(ids.LOAD_SLIDER, "value"),
         Output(ids.LAKE_TITLE, "children"),
+        *[Output(ids.FIELDS[f][0], "value") for f in FIELD_RULES],
         Input(ids.LAKE_STORE, "data"),
         Input(ids.MEETING_TOGGLE, "value"),
         State(ids.HISTORY_STORE, "data"),
+        State(ids.FIT_STORE, "data"),
     )(on_lake)
     app.callback(
         Output(ids.HISTORY_STORE, "data", allow_duplicate=True),
@@ -211,6 +260,7 @@ def register(app: Dash) -> None:
         Input(ids.HISTORY_STORE, "data"),
         Input(ids.MEETING_TOGGLE, "value"),
         State(ids.LAKE_STORE, "data"),
+        State(ids.FIT_STORE, "data"),
         prevent_initial_call="initial_duplicate",
     )(on_history)
     app.callback(

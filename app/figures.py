@@ -99,8 +99,13 @@ def equilibrium_figure(
     present_load: float,
     load_max: float,
     meeting: bool = False,
+    fit: dict[str, Any] | None = None,
 ) -> go.Figure:
     """Equilibrium curve (load against TP) with folds, bistable band, history and current state.
+
+    With ``fit`` (the monitoring fit of this lake) the observed years are drawn
+    as points and the 90 % bootstrap intervals of both folds as bands; a fold
+    the record cannot constrain is labelled so.
 
     Stable branches are solid, the unstable branch dashed; the band of loads
     with two stable states is shaded; the history trace shows every state of
@@ -144,7 +149,21 @@ def equilibrium_figure(
             showlegend=False,
         )
     )
-    fig.add_trace(go.Scatter(x=[], y=[], mode="markers", name="Observed years", showlegend=False))
+    obs = (fit or {}).get("observed") or {"year": [], "load": [], "tp": []}
+    fig.add_trace(
+        go.Scatter(
+            x=obs["load"],
+            y=obs["tp"],
+            customdata=obs["year"],
+            mode="markers",
+            name="observed years",
+            marker={"size": sty["marker"] // 2 + 2, "color": "rgba(40,40,40,0.55)", "symbol": "square"},
+            hovertemplate="%{customdata}: %{x:.0f} kg/yr, %{y:.1f} µg/L<extra>observed</extra>",
+            showlegend=bool(obs["load"]),
+        )
+    )
+    if fit:
+        _fold_bands(fig, fit, load_max, sty["font"] - 4)
     hxy = history_xy(history, profile)
     fig.add_trace(
         go.Scatter(
@@ -191,7 +210,7 @@ def equilibrium_figure(
         x=present_load,
         line={"color": TODAY, "width": 2, "dash": "dot"},
         annotation_text=lab["today"],
-        annotation_position="top right",
+        annotation_position="bottom right",
         annotation_font={"size": sty["font"] - 3, "color": TODAY},
     )
     y_top = float(profile.concentration(np.max(analysis.curve.p))) if len(analysis.curve) else 1.0
@@ -208,6 +227,29 @@ def equilibrium_figure(
         uirevision="equilibrium",
     )
     return fig
+
+
+def _fold_bands(fig: go.Figure, fit: dict[str, Any], load_max: float, font: int) -> None:
+    """The fitted folds' bootstrap intervals as vertical bands."""
+    for key, label, colour in (
+        ("tipping", "tipping load", "rgba(31,111,168,0.13)"),
+        ("recovery", "recovery load", "rgba(122,143,28,0.15)"),
+    ):
+        band = fit.get(key) or {}
+        lo, hi = band.get("low"), band.get("high")
+        if lo is None or hi is None:
+            continue
+        text = f"{label}: 90% band" if band.get("constrained", True) else f"{label}: not constrained by the record"
+        fig.add_vrect(
+            x0=max(lo, -load_max),
+            x1=min(hi, load_max),
+            fillcolor=colour,
+            line_width=0,
+            layer="below",
+            annotation_text=text,
+            annotation_position="top left" if key == "tipping" else "top right",
+            annotation_font={"size": font, "color": "#333"},
+        )
 
 
 #: OECD (1982) fixed TP boundaries [µg L⁻¹] between the classes of model.clarity.OECD_CLASSES
@@ -241,8 +283,14 @@ def _trophic_bands(fig: go.Figure, y_top: float, font: int, meeting: bool) -> No
         )
 
 
-def time_figure(history: dict[str, Sequence[float]], profile: LakeProfile, *, meeting: bool = False) -> go.Figure:
-    """Lake TP and load against session year, for the same history."""
+def time_figure(
+    history: dict[str, Sequence[float]],
+    profile: LakeProfile,
+    *,
+    meeting: bool = False,
+    fit: dict[str, Any] | None = None,
+) -> go.Figure:
+    """Lake TP and load against year, for the same history (and the observed record of a fitted lake)."""
     lab = _labels(meeting)
     sty = _style(meeting)
     fig = make_subplots(rows=2, cols=1, shared_xaxes=True, row_heights=[0.62, 0.38], vertical_spacing=0.06)
@@ -272,8 +320,12 @@ def time_figure(history: dict[str, Sequence[float]], profile: LakeProfile, *, me
         row=2,
         col=1,
     )
-    fig.add_trace(go.Scatter(x=[], y=[], mode="markers", name="Observed TP", showlegend=False), row=1, col=1)
-    fig.add_trace(go.Scatter(x=[], y=[], mode="markers", name="Observed load", showlegend=False), row=2, col=1)
+    obs = (fit or {}).get("observed") or {"year": [], "load": [], "tp": []}
+    grey = {"size": sty["marker"] // 2, "color": "rgba(40,40,40,0.55)", "symbol": "square"}
+    fig.add_trace(go.Scatter(x=obs["year"], y=obs["tp"], mode="markers", name="observed TP", marker=grey), row=1, col=1)
+    fig.add_trace(
+        go.Scatter(x=obs["year"], y=obs["load"], mode="markers", name="observed load", marker=grey), row=2, col=1
+    )
     fig.update_layout(
         template="plotly_white",
         font={"size": sty["font"] - 1},

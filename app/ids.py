@@ -63,6 +63,7 @@ VIEWS = {"lake": VIEW_LAKE, "record": VIEW_RECORD, "plans": VIEW_PLANS, "map": V
 # clarity words in the readout
 CLARITY_WORDS = "clarity-words"
 HEALTH_WORDS = "health-words"
+FIT_WORDS = "fit-words"
 
 # regime map view
 MAP_GRAPH = "map-graph"

@@ -104,13 +104,13 @@ def settings_panel(params: LakeParameters, profile: LakeProfile) -> html.Details
     )
 
 
-def build_layout(lake: Lake) -> html.Div:
+def build_layout(lake: Lake, record: dict[str, Any] | None = None) -> html.Div:
     params, profile = lake_from_store(lake)
     return html.Div(
         [
             dcc.Store(id=ids.LAKE_STORE, storage_type="session", data=lake),
             dcc.Store(id=ids.HISTORY_STORE, storage_type="session"),
-            dcc.Store(id=ids.RECORD_STORE, storage_type="session"),
+            dcc.Store(id=ids.RECORD_STORE, storage_type="session", data=record),
             dcc.Store(id=ids.FIT_STORE, storage_type="session"),
             html.Header(
                 [

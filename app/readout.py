@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 from dash import html
 
 from model.clarity import TP_MAX_UG_L, TP_MIN_UG_L, clarity
@@ -117,6 +119,29 @@ def build_readout(
                 id=ids.TIPPING_WORDS,
             )
         )
+    return rows
+
+
+def fit_rows(fit: dict[str, Any]) -> list[html.Div]:
+    """What the monitoring fit says: fold intervals, regime probabilities, identifiability warnings."""
+
+    def band(name: str, b: dict[str, Any]) -> str:
+        if b.get("low") is None or b.get("high") is None:
+            return f"{name}: the record cannot place it"
+        core = f"{b['estimate']:,.0f} kg/yr, " if b.get("estimate") is not None else ""
+        return f"{name} {core}90% interval {b['low']:,.0f}–{b['high']:,.0f} kg/yr"
+
+    probs = fit["regime_probability"]
+    prob = ", ".join(f"{k} {100 * v:.0f}%" for k, v in sorted(probs.items(), key=lambda kv: -kv[1]))
+    rows = [
+        html.Div(
+            f"From the monitoring record ({fit['record_name']}): {band('tipping load', fit['tipping'])}; "
+            f"{band('recovery load', fit['recovery'])}. Chance of each regime: {prob}.",
+            className="readout-row readout-fit",
+            id=ids.FIT_WORDS,
+        )
+    ]
+    rows += [html.Div(w, className="readout-row readout-warning") for w in fit.get("warnings", [])]
     return rows
 
 

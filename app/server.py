@@ -11,7 +11,7 @@ from dash import Dash, DiskcacheManager
 
 from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 
-from . import callbacks, callbacks_map
+from . import callbacks, callbacks_map, callbacks_record
 from .layout import build_layout
 from .session import lake_to_store
 
@@ -36,7 +36,8 @@ def create_app() -> Dash:
         background_callback_manager=manager,
         suppress_callback_exceptions=False,
     )
-    app.layout = build_layout(lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE))
+    app.layout = build_layout(lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE), callbacks_record.demo_record())
     callbacks.register(app)
     callbacks_map.register(app)
+    callbacks_record.register(app)
     return app

@@ -31,8 +31,22 @@ def lake_from_store(data: Lake) -> tuple[LakeParameters, LakeProfile]:
     return LakeParameters.from_dict(data["params"]), LakeProfile.from_dict(data["profile"])
 
 
+def _canonical(v: Any) -> Any:
+    """Numbers as floats, so a lake keeps its key through the browser (which writes 2.79e7 as 27900000)."""
+    if isinstance(v, bool):
+        return v
+    if isinstance(v, int | float):
+        return float(v)
+    if isinstance(v, dict):
+        return {k: _canonical(x) for k, x in v.items()}
+    if isinstance(v, list | tuple):
+        return [_canonical(x) for x in v]
+    return v
+
+
 def lake_key(data: Lake) -> str:
-    return hashlib.sha1(json.dumps(data, sort_keys=True).encode()).hexdigest()[:16]
+    """A short fingerprint of a lake, stable through JSON in the browser."""
+    return hashlib.sha1(json.dumps(_canonical(data), sort_keys=True).encode()).hexdigest()[:16]
 
 
 def starting_state(params: LakeParameters, load: float) -> float:
@@ -44,11 +58,12 @@ def starting_state(params: LakeParameters, load: float) -> float:
 def new_history(lake: Lake) -> History:
     params, profile = lake_from_store(lake)
     load = profile.load_kg_yr
+    start = lake.get("start") or {}
     return {
         "lake_key": lake_key(lake),
-        "year": [0],
+        "year": [int(start.get("year", 0))],
         "load": [load],
-        "p": [starting_state(params, load)],
+        "p": [float(start["p"]) if "p" in start else starting_state(params, load)],
         "event": ["start"],
     }
 

@@ -2,8 +2,82 @@
 
 from __future__ import annotations
 
-from dash import html
+from dash import dcc, html
+
+from . import ids
+from .layout_parts import graph_config
+
+FORMAT_HINT = (
+    "CSV with one row a year: year, load_kg (external TP load that year, kg), tp_ug_l (lake mean TP, µg/L); "
+    "optionally secchi_m and chl_ug_l. At least 10 consecutive years. The invented record of the demo lake is "
+    "loaded to start with."
+)
 
 
 def build_view() -> list[html.Div]:
-    return [html.Div([html.H2("Monitoring record"), html.P("Fitting arrives here.")], className="card")]
+    return [
+        html.Div(
+            [
+                html.H2("Monitoring record"),
+                html.P(FORMAT_HINT, className="hint"),
+                dcc.Upload(
+                    id=ids.RECORD_UPLOAD,
+                    children=html.Div(["Drop a monitoring CSV here, or ", html.A("choose a file")]),
+                    className="upload-box",
+                    multiple=False,
+                ),
+                html.Div(id=ids.RECORD_MESSAGE, className="field-message", role="alert"),
+                html.Div(id=ids.RECORD_SUMMARY, className="readout-row"),
+                html.Div(
+                    [
+                        html.Label("Lake volume [m³]", htmlFor=ids.RECORD_VOLUME),
+                        dcc.Input(id=ids.RECORD_VOLUME, type="text", className="field-input wide"),
+                        html.Label("Bootstrap replicates", htmlFor=ids.RECORD_REPLICATES),
+                        dcc.Input(id=ids.RECORD_REPLICATES, type="number", min=100, max=20000, step=100, value=1000),
+                        html.Button("Fit the lake model to this record", id=ids.RECORD_FIT_BUTTON, n_clicks=0),
+                        html.Button(
+                            "Cancel", id=ids.RECORD_CANCEL_BUTTON, n_clicks=0, disabled=True, className="secondary"
+                        ),
+                    ],
+                    className="control-row",
+                ),
+                html.Div(
+                    [
+                        html.Progress(id=ids.RECORD_PROGRESS, value="0", max="100"),
+                        html.Span(id=ids.RECORD_PROGRESS_TEXT, className="hint"),
+                    ],
+                    className="progress-row",
+                ),
+                html.Div(id=ids.RECORD_FIT_RESULT, className="fit-result"),
+            ],
+            className="card",
+        ),
+        html.Div(
+            [
+                html.H2("What was measured"),
+                dcc.Graph(id=ids.RECORD_GRAPH, config=graph_config("turnback-record")),
+                html.P(
+                    "Expected values follow from the observed TP by Carlson's (1977) trophic-state-index "
+                    "equivalence; observed points far from the dashed line mean something other than phosphorus "
+                    "(colour, clay, grazing) is setting the clarity.",
+                    className="hint",
+                ),
+                dcc.Graph(id=ids.RECORD_CLARITY_GRAPH, config=graph_config("turnback-clarity")),
+            ],
+            className="card",
+        ),
+        html.Div(
+            [
+                html.H2("Warning signs in the record"),
+                html.P(
+                    "Rolling variance, lag-1 autocorrelation and skewness of lake TP after removing a Gaussian "
+                    "trend, with Kendall τ trends tested against AR(1) surrogate series (Dakos et al. 2012; "
+                    "Scheffer et al. 2009). Window: half the record.",
+                    className="hint",
+                ),
+                html.Div(id=ids.WARNING_WORDS, className="readout"),
+                dcc.Graph(id=ids.WARNING_GRAPH, config=graph_config("turnback-warning-signs")),
+            ],
+            className="card",
+        ),
+    ]

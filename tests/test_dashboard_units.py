@@ -165,3 +165,13 @@ def test_readout_gives_clarity_and_who_caution() -> None:
     rows = str(build_readout(P, PROF, res, load, low.p))
     assert "Secchi depth about" in rows and "WHO (2003)" in rows and "local health advisories" in rows
     assert "safe to swim" not in rows
+
+
+def test_lake_key_survives_the_browser_writing_whole_floats_as_integers() -> None:
+    import json
+
+    lake = lake_to_store(P, PROF)
+    lake["start"] = {"year": 2023, "p": 900.0}
+    through_js = json.loads(json.dumps(lake).replace("27900000.0", "27900000"))
+    assert through_js["profile"]["volume_m3"] == 27900000 and isinstance(through_js["profile"]["volume_m3"], int)
+    assert lake_key(through_js) == lake_key(lake)
