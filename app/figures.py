@@ -55,7 +55,7 @@ def _labels(meeting: bool) -> dict[str, str]:
             "current": "The lake now",
             "folds": "Tipping and recovery points",
             "today": "today",
-            "year": "Year of the session",
+            "year": "Year",
             "tp": "TP (µg/L)",
             "load": "Inflow (kg/yr)",
         }
@@ -71,7 +71,7 @@ def _labels(meeting: bool) -> dict[str, str]:
         "current": "Current state",
         "folds": "Folds",
         "today": "present-day load",
-        "year": "Session year [yr]",
+        "year": "Year",
         "tp": "TP [µg L⁻¹]",
         "load": "Load [kg yr⁻¹]",
     }
