@@ -11,7 +11,7 @@ from dash import Dash, DiskcacheManager
 
 from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 
-from . import callbacks, callbacks_map, callbacks_record
+from . import callbacks, callbacks_map, callbacks_plans, callbacks_record
 from .layout import build_layout
 from .session import lake_to_store
 
@@ -26,8 +26,13 @@ def cache_dir() -> Path:
     return Path(tempfile.gettempdir()) / f"turnback-cache-{os.getuid() if hasattr(os, 'getuid') else 'user'}"
 
 
-def create_app() -> Dash:
-    """Build the dashboard on the built-in demo lake.  All state lives in the browser session."""
+def create_app(data_dir: str | Path | None = None) -> Dash:
+    """Build the dashboard on the built-in demo lake.
+
+    Session state lives in the browser; saved lakes, fits and scenarios go to
+    the SQLite store in ``data_dir`` (default: $TURNBACK_DATA_DIR, else
+    ./turnback-data; see :mod:`model.store`).
+    """
     manager = DiskcacheManager(diskcache.Cache(str(cache_dir())))
     app = Dash(
         __name__,
@@ -40,4 +45,5 @@ def create_app() -> Dash:
     callbacks.register(app)
     callbacks_map.register(app)
     callbacks_record.register(app)
+    callbacks_plans.register(app, Path(data_dir) if data_dir is not None else None)
     return app
