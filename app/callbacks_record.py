@@ -263,5 +263,6 @@ def register(app: Dash) -> None:
             (Output(ids.RECORD_CANCEL_BUTTON, "disabled"), False, True),
         ],
         cancel=[Input(ids.RECORD_CANCEL_BUTTON, "n_clicks")],
+        interval=300,
         prevent_initial_call=True,
     )(run_fit)
