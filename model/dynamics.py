@@ -18,11 +18,11 @@ leading axes, time runs along the last.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.special import expit
 
 from .params import LakeParameters, recycling_fraction
 
@@ -97,21 +97,67 @@ def simulate(
     if load_arr.ndim == 0:
         raise ValueError("loads must have a time axis (one value a year)")
     n_years = load_arr.shape[-1]
-    p_start = np.broadcast_to(np.asarray(p0, dtype=float), load_arr.shape[:-1]).copy()
     shape = load_arr.shape
-    scale = np.broadcast_to(np.asarray(1.0 if recycling_scale is None else recycling_scale, dtype=float), shape)
-    rem = np.broadcast_to(np.asarray(0.0 if removal is None else removal, dtype=float), shape)
-    noise = np.broadcast_to(np.asarray(0.0 if process_noise is None else process_noise, dtype=float), shape)
-    out = np.empty((*shape[:-1], n_years + 1))
-    out[..., 0] = p_start
-    p = p_start
+    batch = shape[:-1]
+
+    def per_year(a: ArrayLike | None) -> NDArray[np.float64] | None:
+        if a is None:
+            return None
+        return np.broadcast_to(np.asarray(a, dtype=float), shape)
+
+    scale, rem, noise = per_year(recycling_scale), per_year(removal), per_year(process_noise)
+    # year-major storage: each year's slice of every array is contiguous
+    out_t = np.empty((n_years + 1, *batch))
+    out = np.moveaxis(out_t, 0, -1)
+    out_t[0] = np.broadcast_to(np.asarray(p0, dtype=float), batch)
+    loads_t = np.ascontiguousarray(np.moveaxis(load_arr, -1, 0))
+    scale_t = None if scale is None else np.moveaxis(scale, -1, 0)
+    rem_t = None if rem is None else np.moveaxis(rem, -1, 0)
+    noise_t = None if noise is None else np.moveaxis(noise, -1, 0)
     s, r, m, q = params.s, params.r, params.m, params.q
-    log_m = np.log(m)
+    hill = _hill_function(m, q)
+    p = np.array(out_t[0], dtype=float)
+    keep = 1.0 - s
     for t in range(n_years):
-        p = np.maximum(p - rem[..., t], 0.0)
-        with np.errstate(divide="ignore"):
-            z = q * (np.log(p) - log_m)
-        h = np.where(p > 0.0, expit(z), 0.0)
-        p = np.maximum(p + load_arr[..., t] - s * p + scale[..., t] * r * h + noise[..., t], 0.0)
-        out[..., t + 1] = p
+        if rem_t is not None:
+            np.maximum(p - rem_t[t], 0.0, out=p)
+        h = hill(p)
+        if scale_t is not None:
+            h *= scale_t[t]
+        nxt = p * keep
+        nxt += loads_t[t]
+        nxt += r * h
+        if noise_t is not None:
+            nxt += noise_t[t]
+        np.maximum(nxt, 0.0, out=p)
+        out_t[t + 1] = p
     return Trajectory(p=out, load=load_arr)
+
+
+def _hill_function(m: float, q: float) -> Callable[[NDArray[np.float64]], NDArray[np.float64]]:
+    """``P^q/(m^q + P^q)`` as ``y/(1 + y)`` with ``y = (P/m)^q``, accurate in both tails.
+
+    ``P/m`` is capped so that ``y`` stays finite (``h`` is 1 to machine
+    precision there); whole-number ``q`` up to 16 uses repeated squaring.
+    """
+    cap = 10.0 ** (300.0 / q)
+    whole = float(q).is_integer() and 1 <= q <= 16
+    n = int(q)
+
+    def hill(p: NDArray[np.float64]) -> NDArray[np.float64]:
+        x = np.minimum(p / m, cap)
+        if whole:
+            y = np.ones_like(x)
+            base = x.copy()
+            k = n
+            while k:
+                if k & 1:
+                    y *= base
+                k >>= 1
+                if k:
+                    base *= base
+        else:
+            y = np.power(x, q)
+        return y / (1.0 + y)
+
+    return hill
