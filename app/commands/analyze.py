@@ -11,19 +11,14 @@ from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from model.equilibrium import LakeAnalysis, analyze, removal_needed, safety_margin
 from model.params import LakeParameters, LakeProfile, load_profile_file
 
+from ._shared import number
+
 _PARAM_FLAGS = {
     "loss_rate": ("--loss-rate", "S", "loss rate s [1/yr] (burial plus outflow)"),
     "recycling_max": ("--recycling-max", "R", "maximum recycling rate r [mass/yr]"),
     "recycling_half": ("--recycling-half", "M", "recycling half-saturation m [mass]"),
     "recycling_exponent": ("--recycling-exponent", "Q", "recycling exponent q [-]"),
 }
-
-
-def _number(text: str) -> float:
-    try:
-        return float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
 
 
 def add_parser(sub: Any) -> None:
@@ -34,12 +29,12 @@ def add_parser(sub: Any) -> None:
         "parameters are given in (load in mass per year, P in mass); --lake adds concentrations.",
     )
     for dest, (flag, metavar, text) in _PARAM_FLAGS.items():
-        p.add_argument(flag, dest=dest, type=_number, metavar=metavar, help=text)
-    p.add_argument("--load", type=_number, metavar="L", help="report the equilibria at this load [mass/yr]")
+        p.add_argument(flag, dest=dest, type=number, metavar=metavar, help=text)
+    p.add_argument("--load", type=number, metavar="L", help="report the equilibria at this load [mass/yr]")
     p.add_argument(
         "--load-range",
         nargs=2,
-        type=_number,
+        type=number,
         metavar=("LO", "HI"),
         help="include the equilibrium curve over this load range",
     )

@@ -9,12 +9,7 @@ from typing import Any
 
 from model.clarity import clarity
 
-
-def _number(text: str) -> float:
-    try:
-        return float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
+from ._shared import number
 
 
 def _fmt(value: float) -> str:
@@ -34,7 +29,7 @@ def add_parser(sub: Any) -> None:
         "phosphorus-limited lake, not a measurement or a health assessment.",
     )
     p.add_argument(
-        "--tp-ug-l", dest="tp_ug_l", type=_number, required=True, metavar="TP", help="total phosphorus [µg/L], > 0"
+        "--tp-ug-l", dest="tp_ug_l", type=number, required=True, metavar="TP", help="total phosphorus [µg/L], > 0"
     )
     p.add_argument(
         "--json", action="store_true", help="print one JSON object: tsi_tp, chl_ug_l, secchi_m, oecd_class, tsi_class"

@@ -30,14 +30,9 @@ from model.fit import DEFAULT_REPLICATES, MIN_REPLICATES, FitResult, ParameterEs
 from model.monitoring import MonitoringSeries, parse_monitoring
 from model.params import LakeProfile, load_profile_file
 
+from ._shared import number
+
 MAX_REPLICATES = 100_000
-
-
-def _number(text: str) -> float:
-    try:
-        return float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
 
 
 def add_parser(sub: Any) -> None:
@@ -49,7 +44,7 @@ def add_parser(sub: Any) -> None:
         "tp_ug_l (mean lake TP [µg/L]), optionally secchi_m and chl_ug_l; one row per consecutive year.",
     )
     p.add_argument("file", metavar="FILE.csv", help="the monitoring record")
-    p.add_argument("--volume-m3", type=_number, metavar="V", help="lake volume [m³] (or give --lake)")
+    p.add_argument("--volume-m3", type=number, metavar="V", help="lake volume [m³] (or give --lake)")
     p.add_argument("--lake", metavar="FILE", help="lake profile (JSON or TOML) that gives the volume")
     p.add_argument(
         "--replicates",
