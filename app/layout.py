@@ -197,7 +197,6 @@ def build_layout(lake: Lake, record: dict[str, Any] | None = None) -> html.Div:
                                                 max=1,
                                                 value=profile.load_kg_yr,
                                                 updatemode="mouseup",
-                                                tooltip={"placement": "bottom", "always_visible": False},
                                                 className="load-slider",
                                             ),
                                             html.Div(

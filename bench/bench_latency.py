@@ -34,13 +34,13 @@ def pct(values: list[float], q: float) -> float:
     return s[min(len(s) - 1, round(q * (len(s) - 1)))]
 
 
-def server_side() -> tuple[float, float]:
+def server_side(n_changes: int = 200, n_full: int = 30) -> tuple[float, float]:
     """Median time [ms] of one load change (patch path) and of a full rebuild."""
     lake = lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE)
     history = new_history(lake)
     patch_times, full_times = [], []
     load = DEMO_PROFILE.load_kg_yr
-    for i in range(200):
+    for i in range(n_changes):
         load += 1.0 if i % 2 == 0 else -1.0
         t0 = time.perf_counter()
         new, _, _ = step_session("load-slider", load, history, lake, 5, 0)
@@ -49,9 +49,9 @@ def server_side() -> tuple[float, float]:
         json.dumps(eq.to_plotly_json()), json.dumps(tf.to_plotly_json())
         patch_times.append(time.perf_counter() - t0)
         history = new
-    for _ in range(30):
+    for _ in range(n_full):
         t0 = time.perf_counter()
-        out = on_lake(lake, [], history)
+        out = on_lake(lake, [], history, None)
         out[1].to_json(), out[2].to_json()
         full_times.append(time.perf_counter() - t0)
     return statistics.median(patch_times) * 1e3, statistics.median(full_times) * 1e3
