@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from typing import Any
 
 from dash import Dash, Input, Output, Patch, State, ctx, no_update
@@ -140,9 +141,8 @@ def step_session(
         return None, "", ""
     if trigger == ids.RESET_BUTTON:
         new = dict(history)
-        for k in ("year", "load", "p", "event"):
+        for k in ("year", "load", "p"):
             new[k] = [history[k][-1]]
-        new["year"] = [0]
         new["event"] = ["start"]
         return new, "", ""
     years, years_msg = _years(years_value)
@@ -153,7 +153,7 @@ def step_session(
             kg = float(removal_value)
         except (TypeError, ValueError):
             return None, "", "Enter the P mass to remove in kg (a number of 0 or more)."
-        if not kg >= 0 or kg != kg or kg == float("inf"):
+        if not (math.isfinite(kg) and kg >= 0):
             return None, "", "Enter the P mass to remove in kg (a number of 0 or more)."
         new_h = remove_p(history, params, kg, years)
         return new_h, "", f"Removed {min(kg, history['p'][-1]):,.0f} kg P, then {years} years passed."
@@ -202,7 +202,7 @@ def on_history(
     if fit:
         rows += fit_rows(fit)
     text, kg = removal_text(params, profile, load, p_now)
-    suggestion = round(kg + 0.5) if kg > 0 else 0
+    suggestion = math.ceil(kg) if kg > 0 else 0
     _, time_patch = history_patches(history, lake)
     return rows, text, suggestion, time_patch
 
