@@ -203,7 +203,7 @@ def equilibrium_figure(
             line_width=0,
             layer="below",
             annotation_text=lab["band"],
-            annotation_position="bottom left",
+            annotation_position="top left",
             annotation_font_size=sty["font"] - 3,
         )
     fig.add_vline(
@@ -247,7 +247,7 @@ def _fold_bands(fig: go.Figure, fit: dict[str, Any], load_max: float, font: int)
             line_width=0,
             layer="below",
             annotation_text=text,
-            annotation_position="top left" if key == "tipping" else "top right",
+            annotation_position="bottom left" if key == "tipping" else "bottom right",
             annotation_font={"size": font, "color": "#333"},
         )
 
