@@ -90,3 +90,97 @@ WARNING_GRAPH = "warning-graph"
 WARNING_WORDS = "warning-words"
 
 # ---- plans view: ids below this line belong to the plans view modules ----
+
+# per-session stores of the plans view
+PLAN_STORE = "plan-store"  # the plan's scenarios, each as Scenario.to_dict(); storage "session"
+PLAN_EDITING = "plan-editing"  # the scenario the form is editing: {"name", "extra"} or None
+PLAN_RESULTS_STORE = "plan-results-store"  # the last completed run: lake, outcomes and yearly series
+PLAN_PRECAUTION_STORE = "plan-precaution-store"  # the last precautionary-load answer
+PLAN_RUN_REQUEST = "plan-run-request"  # {"token"} of the run asked for (memory: a reload never re-runs)
+PLAN_PRECAUTION_REQUEST = "plan-precaution-request"  # {"token", "scenario", ...} (memory)
+
+# the lake the plan is for
+PLAN_LAKE_NOTE = "plan-lake-note"
+
+#: scenario form field name -> input id
+PLAN_FORM = {
+    name: f"plan-form-{name.replace('_', '-')}"
+    for name in (
+        "name",
+        "years",
+        "load_kind",
+        "load_from",
+        "cut_percent",
+        "cut_years",
+        "step_to",
+        "step_year",
+        "table",
+        "removal_kg",
+        "removal_year",
+        "inact_percent",
+        "inact_year",
+        "inact_years",
+        "cv",
+        "noise_sd",
+        "members",
+        "seed",
+        "clear_rule",
+        "clear_tp",
+        "stay_years",
+    )
+}
+#: group of load fields -> its container ("from": the starting load, shown for every kind but the table)
+PLAN_LOAD_GROUPS = {
+    group: f"plan-load-group-{group.replace('_', '-')}" for group in ("from", "linear_cut", "step", "table")
+}
+#: form section -> message id beside it
+PLAN_MESSAGES = {section: f"plan-message-{section}" for section in ("basics", "load", "treatments", "variability")}
+
+# scenario list and its buttons
+PLAN_LIST = "plan-list"
+PLAN_ADD = "plan-add"
+PLAN_UPDATE = "plan-update"
+PLAN_EDIT = "plan-edit"
+PLAN_DUPLICATE = "plan-duplicate"
+PLAN_DELETE = "plan-delete"
+PLAN_STATUS = "plan-status"
+
+# run
+PLAN_RUN = "plan-run"
+PLAN_CANCEL = "plan-cancel"
+PLAN_PROGRESS = "plan-progress"
+PLAN_PROGRESS_TEXT = "plan-progress-text"
+PLAN_RUN_MESSAGE = "plan-run-message"
+
+# results
+PLAN_RESULTS_NOTE = "plan-results-note"
+PLAN_TABLE = "plan-table"
+PLAN_DEFINITIONS = "plan-definitions"
+PLAN_TRAJECTORY_GRAPH = "plan-trajectory-graph"
+PLAN_CLEAR_GRAPH = "plan-clear-graph"
+PLAN_RECOVERY_GRAPH = "plan-recovery-graph"
+PLAN_LOAD_GRAPH = "plan-load-graph"
+
+# precautionary load
+PLAN_PREC_SCENARIO = "plan-prec-scenario"
+PLAN_PREC_YEARS = "plan-prec-years"
+PLAN_PREC_PERCENT = "plan-prec-percent"
+PLAN_PREC_BUTTON = "plan-prec-find"
+PLAN_PREC_PROGRESS_TEXT = "plan-prec-progress-text"
+PLAN_PREC_RESULT = "plan-prec-result"
+PLAN_PREC_MESSAGE = "plan-prec-message"
+
+# save and find again
+PLAN_SAVE_NAME = "plan-save-name"
+PLAN_SAVE = "plan-save"
+PLAN_SAVE_MESSAGE = "plan-save-message"
+PLAN_SAVED_LIST = "plan-saved-list"
+PLAN_LOAD_SAVED = "plan-load-saved"
+PLAN_SAVED_DETAILS = "plan-saved-details"
+
+# export
+PLAN_EXPORT_REPORT = "plan-export-report"
+PLAN_EXPORT_TRAJECTORIES = "plan-export-trajectories"
+PLAN_EXPORT_TABLE = "plan-export-table"
+PLAN_DOWNLOAD = "plan-download"
+PLAN_EXPORT_MESSAGE = "plan-export-message"

@@ -1,9 +1,415 @@
-"""Layout of the plans view: scenarios compared over years."""
+"""Layout of the plans view: build scenarios for the current lake, run them, compare, save and export."""
 
 from __future__ import annotations
 
-from dash import html
+from typing import Any
+
+from dash import dash_table, dcc, html
+from dash.dash_table.Format import Format, Group, Scheme
+
+from . import ids
+from .figures_plans import FIGURES, TABLE_COLUMNS
+from .layout_parts import graph_config
+
+INTRO = (
+    "Build scenarios for the current lake, run them as ensembles through the annual phosphorus model and compare "
+    "them side by side. Each scenario starts from the lake's state now (see 'The lake now')."
+)
+TREATMENT_CAUTION = (
+    "Caution: in-lake treatments — P removal (for example dredging) and sediment P inactivation with alum or "
+    "other chemical binders — need permits from the responsible authority and must be designed and carried out "
+    "by licensed practitioners. This view only estimates the phosphorus involved."
+)
+RESULT_CAUTION = (
+    "Scenario estimates from a simplified one-box model, with Monte-Carlo error from a finite ensemble. They are "
+    "not a water-safety or health assessment: for bathing and other uses of the water follow local health "
+    "authorities and their advisories."
+)
+DEFINITIONS = (
+    "Clear: lake P below the clear-state threshold of that year (by default the unstable equilibrium between the "
+    "clear and turbid states at that year's scheduled load; the dotted lines). "
+    "Clear in the final year: share of ensemble members clear in the last year, ± one binomial standard error. "
+    "Chance of flipping: of the members that start clear, the share that is turbid in at least one later year "
+    "('–' when none start clear). "
+    "Recovery year: the first year (year 0 is the start) in which a member is clear and stays clear for the "
+    "scenario's number of consecutive years (3 unless set), all within the horizon. The median counts members "
+    "that never recover as never; '–' when fewer than half recover. "
+    "Median final TP: ensemble median in the final year; the Secchi depth and trophic state are what a typical "
+    "phosphorus-limited lake with that TP shows in summer (Carlson 1977 index equivalence; Carlson & Simpson "
+    "1996 bands; OECD 1982 classes, for annual means), not a forecast for this lake. "
+    "Load cut: the years' do-nothing load (held where it starts) minus the scheduled load, summed; in-lake "
+    "removal: P actually taken out (mean over members)."
+)
+PRECAUTION_HINT = (
+    "The largest sustained load whose chance of flipping from clear to turbid within the years given is at most "
+    "the limit, for a lake that starts at its clear state, under the chosen scenario's load variability, process "
+    "noise, members, seed and clear-state rule. The ± is its Monte-Carlo error (one standard error)."
+)
+
+#: graph ids in the order of :data:`app.figures_plans.FIGURES`
+GRAPHS = (ids.PLAN_TRAJECTORY_GRAPH, ids.PLAN_CLEAR_GRAPH, ids.PLAN_RECOVERY_GRAPH, ids.PLAN_LOAD_GRAPH)
 
 
-def build_view() -> list[html.Div]:
-    return [html.Div([html.H2("Plans compared"), html.P("Scenario comparison arrives here.")], className="card")]
+def _input(key: str, value: str = "", placeholder: str = "", wide: bool = False) -> dcc.Input:
+    return dcc.Input(
+        id=ids.PLAN_FORM[key],
+        type="text",
+        value=value,
+        placeholder=placeholder,
+        className="field-input wide" if wide else "field-input",
+        autoComplete="off",
+    )
+
+
+def _field(key: str, label: str, value: str = "", placeholder: str = "", wide: bool = False) -> html.Div:
+    return html.Div(
+        [html.Label(label, htmlFor=ids.PLAN_FORM[key]), _input(key, value, placeholder, wide)],
+        className="field",
+    )
+
+
+def _message(section: str) -> html.Div:
+    return html.Div(id=ids.PLAN_MESSAGES[section], className="field-message", role="alert")
+
+
+def _form() -> html.Div:
+    f = ids.PLAN_FORM
+    return html.Div(
+        [
+            html.H2("Scenario"),
+            html.Fieldset(
+                [
+                    html.Legend("Name and horizon"),
+                    html.Div(
+                        [_field("name", "Name", "Scenario 1", wide=True), _field("years", "Horizon [years]", "30")],
+                        className="plan-fields",
+                    ),
+                    _message("basics"),
+                ],
+                className="plan-section",
+            ),
+            html.Fieldset(
+                [
+                    html.Legend("External load"),
+                    dcc.RadioItems(
+                        id=f["load_kind"],
+                        options=[
+                            {"label": "held constant", "value": "constant"},
+                            {"label": "linear cut", "value": "linear_cut"},
+                            {"label": "step change", "value": "step"},
+                            {"label": "one value a year", "value": "table"},
+                        ],
+                        value="linear_cut",
+                        inline=True,
+                        className="plan-radio",
+                    ),
+                    html.Div(
+                        [
+                            html.Div(
+                                _field("load_from", "Starting load [kg/yr]", placeholder="the load now"),
+                                id=ids.PLAN_LOAD_GROUPS["from"],
+                            ),
+                            html.Div(
+                                [_field("cut_percent", "Cut [%]", "40"), _field("cut_years", "over [years]", "10")],
+                                id=ids.PLAN_LOAD_GROUPS["linear_cut"],
+                                className="plan-fields",
+                            ),
+                            html.Div(
+                                [
+                                    _field("step_to", "Load after the step [kg/yr]"),
+                                    _field("step_year", "from year", "5"),
+                                ],
+                                id=ids.PLAN_LOAD_GROUPS["step"],
+                                className="plan-fields",
+                                style={"display": "none"},
+                            ),
+                        ],
+                        className="plan-fields",
+                    ),
+                    html.Div(
+                        [
+                            html.Label(
+                                "Loads of years 1, 2, … [kg/yr], separated by commas (one a year)",
+                                htmlFor=f["table"],
+                            ),
+                            dcc.Textarea(id=f["table"], value="", className="plan-table-input", rows=2),
+                        ],
+                        id=ids.PLAN_LOAD_GROUPS["table"],
+                        style={"display": "none"},
+                    ),
+                    _message("load"),
+                ],
+                className="plan-section",
+            ),
+            html.Fieldset(
+                [
+                    html.Legend("In-lake treatments (leave blank for none)"),
+                    html.Div(
+                        [
+                            _field("removal_kg", "P removal [kg]"),
+                            _field("removal_year", "in year"),
+                        ],
+                        className="plan-fields",
+                    ),
+                    html.Div(
+                        [
+                            _field("inact_percent", "Recycling cut by [%]"),
+                            _field("inact_year", "from year"),
+                            _field("inact_years", "for [years]"),
+                        ],
+                        className="plan-fields",
+                    ),
+                    html.P(TREATMENT_CAUTION, className="treatment-caution"),
+                    _message("treatments"),
+                ],
+                className="plan-section",
+            ),
+            html.Fieldset(
+                [
+                    html.Legend("Variability and ensemble"),
+                    html.Div(
+                        [
+                            _field("cv", "Load variability (CV)", "0.2"),
+                            _field("noise_sd", "Process noise sd [kg]", placeholder="none"),
+                            _field("members", "Members", "500"),
+                            _field("seed", "Seed", "1", placeholder="fresh each run"),
+                        ],
+                        className="plan-fields",
+                    ),
+                    html.Details(
+                        [
+                            html.Summary("Clear-state rule and recovery"),
+                            dcc.RadioItems(
+                                id=f["clear_rule"],
+                                options=[
+                                    {"label": "below the unstable equilibrium (default)", "value": "separatrix"},
+                                    {"label": "below the TP of the tipping fold", "value": "tipping_fold"},
+                                    {"label": "below a fixed TP", "value": "fixed"},
+                                ],
+                                value="separatrix",
+                                className="plan-radio",
+                            ),
+                            html.Div(
+                                [
+                                    _field("clear_tp", "Fixed clear TP [µg/L]"),
+                                    _field("stay_years", "Recovered after [clear years in a row]", "3"),
+                                ],
+                                className="plan-fields",
+                            ),
+                        ],
+                        className="plan-more",
+                    ),
+                    _message("variability"),
+                ],
+                className="plan-section",
+            ),
+            html.Div(
+                [
+                    html.Button("Add to the plan", id=ids.PLAN_ADD, n_clicks=0),
+                    html.Button(
+                        "Save changes to the scenario being edited",
+                        id=ids.PLAN_UPDATE,
+                        n_clicks=0,
+                        disabled=True,
+                        className="secondary",
+                    ),
+                ],
+                className="control-row",
+            ),
+        ],
+        className="card plan-form",
+    )
+
+
+def _list_card() -> html.Div:
+    return html.Div(
+        [
+            html.H2("Scenarios of the plan"),
+            dash_table.DataTable(  # type: ignore[attr-defined]
+                id=ids.PLAN_LIST,
+                columns=[
+                    {"id": "name", "name": "Scenario"},
+                    {"id": "plan", "name": "Plan"},
+                    {"id": "ensemble", "name": "Ensemble"},
+                ],
+                data=[],
+                row_selectable="single",
+                selected_rows=[],
+                style_cell={"textAlign": "left", "whiteSpace": "normal", "height": "auto"},
+                style_as_list_view=True,
+                css=[{"selector": ".dash-spreadsheet-menu", "rule": "display: none"}],
+            ),
+            html.Div(
+                [
+                    html.Button("Edit", id=ids.PLAN_EDIT, n_clicks=0, className="secondary"),
+                    html.Button("Duplicate", id=ids.PLAN_DUPLICATE, n_clicks=0, className="secondary"),
+                    html.Button("Delete", id=ids.PLAN_DELETE, n_clicks=0, className="secondary"),
+                ],
+                className="control-row",
+            ),
+            html.Div(id=ids.PLAN_STATUS, className="plan-status", role="status"),
+            html.Div(
+                [
+                    html.Button("Run the plan", id=ids.PLAN_RUN, n_clicks=0, className="plan-run"),
+                    html.Button("Cancel", id=ids.PLAN_CANCEL, n_clicks=0, disabled=True, className="secondary"),
+                ],
+                className="control-row",
+            ),
+            html.Div(
+                [
+                    html.Progress(id=ids.PLAN_PROGRESS, value="0", max="100"),
+                    html.Span(id=ids.PLAN_PROGRESS_TEXT, className="hint"),
+                ],
+                className="progress-row",
+            ),
+            html.Div(id=ids.PLAN_RUN_MESSAGE, className="plan-status", role="status"),
+        ],
+        className="card plan-list",
+    )
+
+
+def _num(fmt: Format) -> dict[str, Any]:
+    return {"type": "numeric", "format": fmt.to_plotly_json()}
+
+
+def table_columns() -> list[dict[str, Any]]:
+    """DataTable columns of the outcome table, with number formats ('–' where undefined)."""
+    pct = Format(precision=1, scheme=Scheme.percentage).nully("–")
+    fmt: dict[str, dict[str, Any]] = {
+        "p_clear_final": _num(pct),
+        "p_clear_final_se": _num(pct),
+        "p_flip": _num(pct),
+        "recovery_years_median": _num(Format(precision=0, scheme=Scheme.fixed).nully("–")),
+        "p_recovered": _num(pct),
+        "final_tp_median_ug_l": _num(Format(precision=1, scheme=Scheme.fixed).nully("–")),
+        "secchi_m": _num(Format(precision=1, scheme=Scheme.fixed).nully("–")),
+    }
+    kg = _num(Format(precision=0, scheme=Scheme.fixed, group=Group.yes).nully("–"))
+    for key in ("load_cut_kg", "in_lake_removal_kg", "total_removed_kg"):
+        fmt[key] = kg
+    return [{"id": k, "name": name, **fmt.get(k, {"type": "text"})} for k, name in TABLE_COLUMNS.items()]
+
+
+def _results_card() -> html.Div:
+    return html.Div(
+        [
+            html.H2("Outcomes side by side"),
+            html.Div(id=ids.PLAN_RESULTS_NOTE, className="readout-row"),
+            html.P("Click a column heading to sort.", className="hint"),
+            dash_table.DataTable(  # type: ignore[attr-defined]
+                id=ids.PLAN_TABLE,
+                columns=table_columns(),
+                data=[],
+                sort_action="native",
+                sort_mode="single",
+                style_cell={"whiteSpace": "normal", "height": "auto", "textAlign": "right"},
+                style_cell_conditional=[{"if": {"column_id": "scenario"}, "textAlign": "left"}],
+                style_header={"fontWeight": "600"},
+                style_table={"overflowX": "auto"},
+                css=[{"selector": ".dash-spreadsheet-menu", "rule": "display: none"}],
+            ),
+            html.P(DEFINITIONS, id=ids.PLAN_DEFINITIONS, className="hint plan-definitions"),
+            html.P(RESULT_CAUTION, className="treatment-caution"),
+            html.Div(
+                [
+                    html.Button("Download the report (HTML)", id=ids.PLAN_EXPORT_REPORT, n_clicks=0),
+                    html.Button(
+                        "Trajectories (CSV)", id=ids.PLAN_EXPORT_TRAJECTORIES, n_clicks=0, className="secondary"
+                    ),
+                    html.Button("Outcome table (CSV)", id=ids.PLAN_EXPORT_TABLE, n_clicks=0, className="secondary"),
+                    html.Span("PNG: the camera button above each figure.", className="hint"),
+                    dcc.Download(id=ids.PLAN_DOWNLOAD),
+                ],
+                className="control-row",
+            ),
+            html.Div(id=ids.PLAN_EXPORT_MESSAGE, className="field-message", role="alert"),
+            html.Div(
+                [
+                    dcc.Graph(id=graph_id, config=graph_config(f"turnback-plan-{key}"))
+                    for key, graph_id in zip(FIGURES, GRAPHS, strict=True)
+                ],
+                className="plan-figures",
+            ),
+        ],
+        className="card plan-results",
+    )
+
+
+def _precaution_card() -> html.Div:
+    return html.Div(
+        [
+            html.H2("Precautionary load"),
+            html.P(PRECAUTION_HINT, className="hint"),
+            html.Label("Under the variability of", htmlFor=ids.PLAN_PREC_SCENARIO),
+            dcc.RadioItems(id=ids.PLAN_PREC_SCENARIO, options=[], value=None, className="plan-radio"),
+            html.Div(
+                [
+                    html.Label("within [years]", htmlFor=ids.PLAN_PREC_YEARS),
+                    dcc.Input(id=ids.PLAN_PREC_YEARS, type="text", value="20", className="field-input"),
+                    html.Label("at most [% chance of flipping]", htmlFor=ids.PLAN_PREC_PERCENT),
+                    dcc.Input(id=ids.PLAN_PREC_PERCENT, type="text", value="5", className="field-input"),
+                    html.Button("Find the precautionary load", id=ids.PLAN_PREC_BUTTON, n_clicks=0),
+                ],
+                className="control-row",
+            ),
+            html.Span(id=ids.PLAN_PREC_PROGRESS_TEXT, className="hint"),
+            html.Div(id=ids.PLAN_PREC_MESSAGE, className="field-message", role="alert"),
+            html.Div(id=ids.PLAN_PREC_RESULT, className="readout-row", role="status"),
+        ],
+        className="card",
+    )
+
+
+def _save_card() -> html.Div:
+    return html.Div(
+        [
+            html.H2("Save and find again"),
+            html.P(
+                "Saving keeps every earlier save as a revision: two people saving the same plan name both keep "
+                "their scenarios.",
+                className="hint",
+            ),
+            html.Div(
+                [
+                    html.Label("Plan name", htmlFor=ids.PLAN_SAVE_NAME),
+                    dcc.Input(
+                        id=ids.PLAN_SAVE_NAME,
+                        type="text",
+                        value="",
+                        placeholder="the lake's name",
+                        className="field-input wide",
+                    ),
+                    html.Button("Save plan", id=ids.PLAN_SAVE, n_clicks=0),
+                ],
+                className="control-row",
+            ),
+            html.Div(id=ids.PLAN_SAVE_MESSAGE, className="plan-status", role="status"),
+            html.H3("Saved plans"),
+            dcc.RadioItems(id=ids.PLAN_SAVED_LIST, options=[], value=None, className="plan-radio plan-saved"),
+            html.Div(id=ids.PLAN_SAVED_DETAILS, className="hint"),
+            html.Button("Add its scenarios to the plan", id=ids.PLAN_LOAD_SAVED, n_clicks=0, className="secondary"),
+        ],
+        className="card",
+    )
+
+
+def build_view() -> list[Any]:
+    return [
+        dcc.Store(id=ids.PLAN_STORE, storage_type="session", data={"scenarios": []}),
+        dcc.Store(id=ids.PLAN_EDITING, storage_type="session"),
+        dcc.Store(id=ids.PLAN_RESULTS_STORE, storage_type="session"),
+        dcc.Store(id=ids.PLAN_PRECAUTION_STORE, storage_type="session"),
+        dcc.Store(id=ids.PLAN_RUN_REQUEST, storage_type="memory"),
+        dcc.Store(id=ids.PLAN_PRECAUTION_REQUEST, storage_type="memory"),
+        html.Div(
+            [
+                html.H2("Plans compared"),
+                html.P(INTRO, className="hint"),
+                html.Div(id=ids.PLAN_LAKE_NOTE, className="readout-row"),
+            ],
+            className="card",
+        ),
+        html.Div([_form(), _list_card()], className="plan-grid"),
+        _results_card(),
+        html.Div([_precaution_card(), _save_card()], className="plan-grid"),
+    ]
