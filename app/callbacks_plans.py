@@ -60,10 +60,11 @@ from . import ids
 from .figures_plans import TABLE_COLUMNS, empty_figure, outcome_table, result_figures
 from .report import build_report_html, write_csv
 from .session import Lake, lake_from_store, lake_key, starting_state
+from .view_plans import table_columns
 
 FORM_KEYS: tuple[str, ...] = tuple(ids.PLAN_FORM)
 SECTIONS: tuple[str, ...] = tuple(ids.PLAN_MESSAGES)
-SetProgress = Callable[[tuple[str, str]], None]
+SetProgress = Callable[[tuple[str, ...]], None]
 
 #: what a new form holds (also the layout's initial values)
 FORM_DEFAULTS: dict[str, str] = {
@@ -507,9 +508,9 @@ def plan_action(
             scenario = None
         out["messages"] = problems
         if scenario is None:
-            out["status"] = "Not added: fix the fields marked in red. The plan's scenarios are unchanged."
+            out["status"] = "Not added: fix the entries named in red. The plan's scenarios are unchanged."
             if trigger == ids.PLAN_UPDATE:
-                out["status"] = "Changes not saved: fix the fields marked in red. The plan's scenarios are unchanged."
+                out["status"] = "Changes not saved: fix the entries named in red. The plan's scenarios are unchanged."
             return out
         if trigger == ids.PLAN_ADD:
             if len(scenarios) >= MAX_SCENARIOS:
@@ -722,14 +723,16 @@ def _clear_flag(folder: Path, token: Any) -> None:
         flag.unlink(missing_ok=True)
 
 
-def _progress_reporter(set_progress: SetProgress) -> Callable[[float, str], None]:
+def _progress_reporter(set_progress: SetProgress, with_bar: bool = True) -> Callable[[float, str], None]:
+    """The model's ``progress(fraction, message)`` as Dash progress: (bar value, text), or (text,)."""
     last = [-1.0]
 
     def progress(fraction: float, message: str) -> None:
         pct = math.floor(100 * fraction)
         if pct != last[0]:
             last[0] = pct
-            set_progress((str(pct), f"{pct}% — {message}"))
+            text = f"{pct}% — {message}"
+            set_progress((str(pct), text) if with_bar else (text,))
 
     return progress
 
@@ -775,7 +778,7 @@ def on_lake_note(tab: str | None, lake: Lake, history: dict[str, Any] | None) ->
         f": scenarios start at TP {tp:.1f} µg/L ({p:,.0f} kg P), {where}, with the load now {load:,.0f} kg/yr."
         + fold_text,
     ]
-    return note, f"the load now: {load:,.0f}", profile.name
+    return note, f"{load:,.0f} (the load now)", profile.name
 
 
 def on_plan_action(*args: Any) -> tuple[Any, ...]:
@@ -890,18 +893,19 @@ def results_note(data: Mapping[str, Any], current: Mapping[str, Any] | None) -> 
 
 
 def on_results(data: dict[str, Any] | None, meeting_value: list[str] | None) -> tuple[Any, ...]:
-    """Outcome table and figures of the last run."""
+    """Outcome table (fewer columns in the meeting view) and figures of the last run."""
     meeting = bool(meeting_value) and "on" in (meeting_value or [])
+    columns = table_columns(meeting)
     if not data or not data.get("results"):
         blank = empty_figure("Run the plan to see its scenarios here.", meeting=meeting)
-        return [], blank, blank, blank, blank
+        return columns, [], blank, blank, blank, blank
     try:
         comp = comparison_from_store(data)
     except (ValueError, KeyError, TypeError):
         blank = empty_figure("The stored results could not be read; run the plan again.", meeting=meeting)
-        return [], blank, blank, blank, blank
+        return columns, [], blank, blank, blank, blank
     figs = result_figures(comp.results, meeting=meeting)
-    return (outcome_table(comp.results), *figs.values())
+    return (columns, outcome_table(comp.results), *figs.values())
 
 
 def on_results_note(data: dict[str, Any] | None, tab: str | None, lake: Lake, history: dict[str, Any] | None) -> Any:
@@ -971,20 +975,20 @@ def run_precaution(set_progress: SetProgress, request: dict[str, Any] | None, *,
         Scenario.from_dict(request["scenario"]),
         precaution=Precaution(request["within_years"], request["max_percent"]),
     )
-    reporter = _progress_reporter(set_progress)
+    reporter = _progress_reporter(set_progress, with_bar=False)
     try:
         pr = scenario_precaution(
             lake, scenario, progress=lambda f, m: reporter(f, m), cancel=cancel_hook(folder, token)
         )
     except RunCancelled:
-        set_progress(("0", "cancelled"))
+        set_progress(("cancelled",))
         return no_update, "Cancelled. The answer shown (if any) is from before."
     except ValueError as exc:
-        set_progress(("0", "not run"))
+        set_progress(("not run",))
         return no_update, f"Cannot search: {exc}"
     finally:
         _clear_flag(folder, token)
-    set_progress(("100", "done"))
+    set_progress(("done",))
     return (
         {
             "scenario": scenario.name,
@@ -1351,6 +1355,7 @@ def register(app: Dash, data_dir: Path | None) -> None:
         prevent_initial_call=True,
     )(lambda clicks, run, prec: on_cancel(clicks, run, prec, folder=folder))
     app.callback(
+        Output(ids.PLAN_TABLE, "columns"),
         Output(ids.PLAN_TABLE, "data"),
         Output(ids.PLAN_TRAJECTORY_GRAPH, "figure"),
         Output(ids.PLAN_CLEAR_GRAPH, "figure"),

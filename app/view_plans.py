@@ -106,13 +106,14 @@ def _form() -> html.Div:
                     html.Div(
                         [
                             html.Div(
-                                _field("load_from", "Starting load [kg/yr]", placeholder="the load now"),
+                                _field("load_from", "Starting load [kg/yr]", placeholder="the load now", wide=True),
                                 id=ids.PLAN_LOAD_GROUPS["from"],
+                                className="plan-group",
                             ),
                             html.Div(
                                 [_field("cut_percent", "Cut [%]", "40"), _field("cut_years", "over [years]", "10")],
                                 id=ids.PLAN_LOAD_GROUPS["linear_cut"],
-                                className="plan-fields",
+                                className="plan-group",
                             ),
                             html.Div(
                                 [
@@ -120,7 +121,7 @@ def _form() -> html.Div:
                                     _field("step_year", "from year", "5"),
                                 ],
                                 id=ids.PLAN_LOAD_GROUPS["step"],
-                                className="plan-fields",
+                                className="plan-group",
                                 style={"display": "none"},
                             ),
                         ],
@@ -235,7 +236,7 @@ def _list_card() -> html.Div:
                 data=[],
                 row_selectable="single",
                 selected_rows=[],
-                style_cell={"textAlign": "left", "whiteSpace": "normal", "height": "auto"},
+                style_cell={"textAlign": "left", "whiteSpace": "normal", "height": "auto", "padding": "4px 8px"},
                 style_as_list_view=True,
                 css=[{"selector": ".dash-spreadsheet-menu", "rule": "display: none"}],
             ),
@@ -272,7 +273,20 @@ def _num(fmt: Format) -> dict[str, Any]:
     return {"type": "numeric", "format": fmt.to_plotly_json()}
 
 
-def table_columns() -> list[dict[str, Any]]:
+#: the outcome table's columns in the meeting view (the rest are in the CSV and the report)
+MEETING_COLUMNS = (
+    "scenario",
+    "p_clear_final",
+    "p_flip",
+    "recovery_years_median",
+    "final_tp_median_ug_l",
+    "secchi_m",
+    "tsi_class",
+    "total_removed_kg",
+)
+
+
+def table_columns(meeting: bool = False) -> list[dict[str, Any]]:
     """DataTable columns of the outcome table, with number formats ('–' where undefined)."""
     pct = Format(precision=1, scheme=Scheme.percentage).nully("–")
     fmt: dict[str, dict[str, Any]] = {
@@ -287,7 +301,8 @@ def table_columns() -> list[dict[str, Any]]:
     kg = _num(Format(precision=0, scheme=Scheme.fixed, group=Group.yes).nully("–"))
     for key in ("load_cut_kg", "in_lake_removal_kg", "total_removed_kg"):
         fmt[key] = kg
-    return [{"id": k, "name": name, **fmt.get(k, {"type": "text"})} for k, name in TABLE_COLUMNS.items()]
+    keys = MEETING_COLUMNS if meeting else tuple(TABLE_COLUMNS)
+    return [{"id": k, "name": TABLE_COLUMNS[k], **fmt.get(k, {"type": "text"})} for k in keys]
 
 
 def _results_card() -> html.Div:
@@ -302,7 +317,7 @@ def _results_card() -> html.Div:
                 data=[],
                 sort_action="native",
                 sort_mode="single",
-                style_cell={"whiteSpace": "normal", "height": "auto", "textAlign": "right"},
+                style_cell={"whiteSpace": "normal", "height": "auto", "textAlign": "right", "padding": "4px 8px"},
                 style_cell_conditional=[{"if": {"column_id": "scenario"}, "textAlign": "left"}],
                 style_header={"fontWeight": "600"},
                 style_table={"overflowX": "auto"},

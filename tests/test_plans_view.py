@@ -111,7 +111,7 @@ def test_lake_note_names_the_start_and_fills_the_default_load() -> None:
     text = "".join(str(x) for x in note[1:])
     tp = float(PROF.concentration(h["p"][-1]))
     assert f"TP {tp:.1f} µg/L" in text and f"{TIP.load:,.0f}" in text
-    assert placeholder == f"the load now: {TODAY:,.0f}" and name == PROF.name
+    assert placeholder == f"{TODAY:,.0f} (the load now)" and name == PROF.name
     assert cp.on_lake_note("lake", LAKE, h) == (no_update, no_update, no_update)
 
 
@@ -326,12 +326,14 @@ def test_outcome_table_adds_expected_clarity() -> None:
 def test_results_render_and_meeting_view_is_larger(tmp_path: Path) -> None:
     plan, _ = small_plan()
     data, _ = cp.run_plan(Progress(), {"token": "c" * 32}, plan, LAKE, None, folder=tmp_path)
-    table, *figs = cp.on_results(data, [])
+    columns, table, *figs = cp.on_results(data, [])
     assert [r["scenario"] for r in table] == ["cut", "push"] and len(figs) == 4
+    assert [c["id"] for c in columns] == list(TABLE_COLUMNS)
     assert {t.name for t in figs[0].data if t.showlegend is not False} == {"cut", "push"}
-    _, *big = cp.on_results(data, ["on"])
+    big_columns, _, *big = cp.on_results(data, ["on"])
     assert big[0].layout.font.size > figs[0].layout.font.size
-    empty_table, *blank = cp.on_results(None, [])
+    assert [c["id"] for c in big_columns] == list(view_plans.MEETING_COLUMNS)
+    _, empty_table, *blank = cp.on_results(None, [])
     assert empty_table == [] and "Run the plan" in blank[0].layout.annotations[0].text
     note = cp.on_results_note(data, "plans", LAKE, None)
     assert "2 scenarios" in note[0] and len(note) == 1
@@ -364,7 +366,7 @@ def test_precaution_request_checks_and_matches_the_model(tmp_path: Path) -> None
     )
     assert data["result"]["load_kg_per_yr"] == direct.load_kg_per_yr
     assert data["result"]["standard_error_kg_per_yr"] == direct.standard_error_kg_per_yr
-    assert progress.seen[-1] == ("100", "done")
+    assert progress.seen[-1] == ("done",) and all(len(v) == 1 for v in progress.seen)
     words = " ".join(str(w) for w in cp.precaution_words(data, TODAY))
     assert f"{direct.load_kg_per_yr:,.0f}" in words and f"± {direct.standard_error_kg_per_yr:,.0f}" in words
     assert "Monte-Carlo error" in words
