@@ -35,6 +35,7 @@ import math
 import os
 import sqlite3
 import threading
+import time
 from collections.abc import Iterator, Mapping
 from contextlib import contextmanager
 from dataclasses import dataclass
@@ -189,7 +190,7 @@ class Store:
         try:
             self._conn.execute(f"PRAGMA busy_timeout = {int(timeout * 1000)}")
             self._conn.execute("PRAGMA foreign_keys = ON")
-            mode = self._conn.execute("PRAGMA journal_mode = WAL").fetchone()[0]
+            mode = self._wal_mode(timeout)
             if str(mode).lower() != "wal":
                 raise ValueError(f"{str(self.path)!r} could not be switched to WAL mode (got {mode})")
             self._conn.execute("PRAGMA synchronous = FULL")
@@ -223,6 +224,22 @@ class Store:
                 if isinstance(exc, sqlite3.Error):
                     raise ValueError(f"could not save ({exc}); nothing was changed") from None
                 raise
+
+    def _wal_mode(self, timeout: float) -> str:
+        """Switch to WAL, waiting out another connection that is doing the same on a new file.
+
+        Switching the journal mode ignores the busy timeout, so two sessions
+        opening a brand-new database at once can see "database is locked";
+        that is retried until ``timeout`` [s].
+        """
+        deadline = time.monotonic() + timeout
+        while True:
+            try:
+                return str(self._conn.execute("PRAGMA journal_mode = WAL").fetchone()[0])
+            except sqlite3.OperationalError as exc:
+                if "locked" not in str(exc) or time.monotonic() >= deadline:
+                    raise
+                time.sleep(0.02)
 
     def _migrate(self) -> None:
         with self._write() as conn:

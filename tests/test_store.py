@@ -224,3 +224,29 @@ def test_a_newer_or_foreign_file_is_refused_and_left_alone(tmp_path: Path) -> No
     (tmp_path / "file").write_text("x")
     with pytest.raises(ValueError, match="data folder"):
         Store(tmp_path / "file")
+
+
+def test_two_sessions_opening_a_new_database_at_once(tmp_path) -> None:
+    # Found in the dashboard: switching a brand-new file to WAL ignores the busy timeout (common practice, no source).
+    import threading
+
+    from model.store import Store
+
+    for trial in range(20):
+        folder = tmp_path / f"t{trial}"
+        errors: list[BaseException] = []
+        barrier = threading.Barrier(2)
+
+        def open_one(folder=folder, errors=errors, barrier=barrier) -> None:
+            barrier.wait()
+            try:
+                Store(folder).close()
+            except BaseException as exc:
+                errors.append(exc)
+
+        threads = [threading.Thread(target=open_one) for _ in range(2)]
+        for t in threads:
+            t.start()
+        for t in threads:
+            t.join()
+        assert errors == []
