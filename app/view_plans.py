@@ -33,7 +33,9 @@ DEFINITIONS = (
     "('–' when none start clear). "
     "Recovery year: the first year (year 0 is the start) in which a member is clear and stays clear for the "
     "scenario's number of consecutive years (3 unless set), all within the horizon. The median counts members "
-    "that never recover as never; '–' when fewer than half recover. "
+    "that never recover as never; '–' when fewer than half recover. A lake that starts clear counts as recovered "
+    "in year 0, so read it with 'Turbid again after recovering': the share of recovered members that turn "
+    "turbid later in the horizon. "
     "Median final TP: ensemble median in the final year; the Secchi depth and trophic state are what a typical "
     "phosphorus-limited lake with that TP shows in summer (Carlson 1977 index equivalence; Carlson & Simpson "
     "1996 bands; OECD 1982 classes, for annual means), not a forecast for this lake. "
@@ -295,6 +297,7 @@ def table_columns(meeting: bool = False) -> list[dict[str, Any]]:
         "p_flip": _num(pct),
         "recovery_years_median": _num(Format(precision=0, scheme=Scheme.fixed).nully("–")),
         "p_recovered": _num(pct),
+        "p_relapse": _num(pct),
         "final_tp_median_ug_l": _num(Format(precision=1, scheme=Scheme.fixed).nully("–")),
         "secchi_m": _num(Format(precision=1, scheme=Scheme.fixed).nully("–")),
     }
