@@ -13,12 +13,8 @@ from . import ids
 from .figures import EQ_CURRENT, EQ_HISTORY, TIME_LOAD, TIME_TP, equilibrium_figure, history_xy, time_figure
 from .layout import slider_config
 from .readout import build_readout, fit_rows, removal_text
-from .session import MAX_YEARS, advance, lake_from_store, lake_key, new_history, remove_p
+from .session import MAX_YEARS, advance, is_meeting, lake_from_store, lake_key, new_history, remove_p
 from .validate import FIELD_RULES, check_settings
-
-
-def _meeting(value: list[str] | None) -> bool:
-    return bool(value) and "on" in (value or [])
 
 
 def _same_lake(a: dict[str, Any], b: dict[str, Any], rtol: float = 1e-5) -> bool:
@@ -76,7 +72,7 @@ def on_lake(
         history_out = no_update
     analysis = analyze(params, n_points=600)
     slider = slider_config(analysis, profile)
-    meeting = _meeting(meeting_value)
+    meeting = is_meeting(meeting_value)
     eq = equilibrium_figure(
         analysis, profile, history, present_load=profile.load_kg_yr, load_max=slider["max"], meeting=meeting, fit=fit
     )
@@ -197,7 +193,7 @@ def on_history(
         return no_update, no_update, no_update, no_update
     load, p_now = history["load"][-1], history["p"][-1]
     analysis = analyze(params, n_points=10)
-    rows = build_readout(params, profile, analysis, load, p_now, meeting=_meeting(meeting_value))
+    rows = build_readout(params, profile, analysis, load, p_now, meeting=is_meeting(meeting_value))
     fit = _fit_for(lake, fit_data)
     if fit:
         rows += fit_rows(fit)
@@ -208,7 +204,7 @@ def on_history(
 
 
 def on_meeting(value: list[str] | None) -> tuple[str, dict[str, str]]:
-    meeting = _meeting(value)
+    meeting = is_meeting(value)
     return ("page meeting" if meeting else "page"), ({"display": "none"} if meeting else {})
 
 

@@ -11,7 +11,7 @@ from model.regime_map import regime_map
 
 from . import ids
 from .figures import regime_map_figure
-from .session import lake_from_store, lake_key
+from .session import is_meeting, lake_from_store, lake_key
 
 
 def on_view(tab: str | None) -> list[dict[str, str]]:
@@ -47,7 +47,7 @@ def on_map(
             if shown < len(samples)
             else f" The cloud shows {shown} bootstrap lakes from the fit."
         )
-    meeting = bool(meeting_value) and "on" in (meeting_value or [])
+    meeting = is_meeting(meeting_value)
     return regime_map_figure(rmap, load_now=load, cloud=cloud, meeting=meeting), note
 
 

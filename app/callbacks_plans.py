@@ -59,7 +59,7 @@ from model.store import Store
 from . import ids
 from .figures_plans import TABLE_COLUMNS, empty_figure, outcome_table, result_figures
 from .report import build_report_html, write_csv
-from .session import Lake, lake_from_store, lake_key, starting_state
+from .session import Lake, is_meeting, lake_from_store, lake_key, starting_state
 from .view_plans import table_columns
 
 FORM_KEYS: tuple[str, ...] = tuple(ids.PLAN_FORM)
@@ -894,7 +894,7 @@ def results_note(data: Mapping[str, Any], current: Mapping[str, Any] | None) -> 
 
 def on_results(data: dict[str, Any] | None, meeting_value: list[str] | None) -> tuple[Any, ...]:
     """Outcome table (fewer columns in the meeting view) and figures of the last run."""
-    meeting = bool(meeting_value) and "on" in (meeting_value or [])
+    meeting = is_meeting(meeting_value)
     columns = table_columns(meeting)
     if not data or not data.get("results"):
         blank = empty_figure("Run the plan to see its scenarios here.", meeting=meeting)

@@ -18,7 +18,7 @@ from model.params import LakeProfile
 
 from . import ids
 from .figures_record import clarity_figure, record_figure, warning_figure
-from .session import Lake, lake_from_store, lake_key, lake_to_store
+from .session import Lake, is_meeting, lake_from_store, lake_key, lake_to_store
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_data" / "amberlin_monitoring.csv"
 CLOUD_MAX = 400  # bootstrap lakes kept for the regime map
@@ -86,7 +86,7 @@ def on_record(record: dict[str, Any] | None, lake: Lake, meeting_value: list[str
     volume = f"{profile.volume_m3:.6g}"
     if not record:
         return "No record loaded yet.", {}, {}, {}, "", volume
-    meeting = bool(meeting_value) and "on" in (meeting_value or [])
+    meeting = is_meeting(meeting_value)
     n = len(record["year"])
     extra = [c for c in ("secchi_m", "chl_ug_l") if record.get(c) is not None]
     summary = (

@@ -23,6 +23,11 @@ Lake = dict[str, Any]
 History = dict[str, Any]
 
 
+def is_meeting(toggle_value: list[str] | None) -> bool:
+    """Whether the meeting-view checklist is ticked."""
+    return "on" in (toggle_value or [])
+
+
 def lake_to_store(params: LakeParameters, profile: LakeProfile) -> Lake:
     return {"params": params.to_dict(), "profile": profile.to_dict()}
 
