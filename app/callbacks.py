@@ -6,8 +6,7 @@ import math
 from typing import Any
 
 from dash import Dash, Input, Output, Patch, State, ctx, no_update
-
-from model.equilibrium import analyze
+from turnback.model.equilibrium import analyze
 
 from . import ids
 from .figures import EQ_CURRENT, EQ_HISTORY, TIME_LOAD, TIME_TP, equilibrium_figure, history_xy, time_figure

@@ -6,8 +6,7 @@ from typing import Any
 
 import numpy as np
 from dash import Dash, Input, Output, State, no_update
-
-from model.regime_map import regime_map
+from turnback.model.regime_map import regime_map
 
 from . import ids
 from .figures import regime_map_figure

@@ -30,9 +30,8 @@ from typing import Any
 
 import numpy as np
 from dash import Dash, Input, Output, State, ctx, html, no_update
-
-from model.equilibrium import folds
-from model.scenario import (
+from turnback.model.equilibrium import folds
+from turnback.model.scenario import (
     MAX_SCENARIOS,
     MAX_YEARS,
     Comparison,
@@ -54,7 +53,7 @@ from model.scenario import (
     compare_plan,
     scenario_precaution,
 )
-from model.store import Store
+from turnback.model.store import Store
 
 from . import ids
 from .figures_plans import TABLE_COLUMNS, empty_figure, outcome_table, result_figures

@@ -5,22 +5,20 @@ from __future__ import annotations
 import base64
 import binascii
 import math
-from pathlib import Path
 from typing import Any
 
 import numpy as np
 from dash import Dash, Input, Output, State, html, no_update
-
-from model.early_warning import early_warning
-from model.fit import FitResult, fit_monitoring
-from model.monitoring import MonitoringError, MonitoringSeries, parse_monitoring
-from model.params import LakeProfile
+from turnback.model.early_warning import early_warning
+from turnback.model.fit import FitResult, fit_monitoring
+from turnback.model.io.resources import DEMO_RECORD_NAME, demo_record_bytes
+from turnback.model.monitoring import MonitoringError, MonitoringSeries, parse_monitoring
+from turnback.model.params import LakeProfile
 
 from . import ids
 from .figures_record import clarity_figure, record_figure, warning_figure
 from .session import Lake, is_meeting, lake_from_store, lake_key, lake_to_store
 
-SAMPLE = Path(__file__).resolve().parents[1] / "sample_data" / "amberlin_monitoring.csv"
 CLOUD_MAX = 400  # bootstrap lakes kept for the regime map
 FIT_SEED = 20261202
 
@@ -58,7 +56,7 @@ def series_from_store(record: dict[str, Any]) -> MonitoringSeries:
 def demo_record() -> dict[str, Any] | None:
     """The invented record of the demo lake, or None if the sample file is missing."""
     try:
-        return record_to_store(parse_monitoring(SAMPLE), SAMPLE.name)
+        return record_to_store(parse_monitoring(demo_record_bytes()), DEMO_RECORD_NAME)
     except (OSError, ValueError):
         return None
 

@@ -13,11 +13,10 @@ from typing import Any
 import numpy as np
 import plotly.graph_objects as go
 from plotly.subplots import make_subplots
-
-from model.clarity import OECD_CLASSES, expected_secchi
-from model.equilibrium import LakeAnalysis
-from model.params import LakeProfile
-from model.regime_map import RegimeMap
+from turnback.model.clarity import OECD_CLASSES, expected_secchi
+from turnback.model.equilibrium import LakeAnalysis
+from turnback.model.params import LakeProfile
+from turnback.model.regime_map import RegimeMap
 
 #: fixed trace order of the equilibrium figure
 EQ_TRACES = ("lower", "middle", "upper", "folds", "observed", "history", "current")

@@ -14,9 +14,8 @@ from collections.abc import Sequence
 from typing import Any
 
 import plotly.graph_objects as go
-
-from model.clarity import TP_MAX_UG_L, TP_MIN_UG_L, clarity
-from model.scenario import ScenarioResult
+from turnback.model.clarity import TP_MAX_UG_L, TP_MIN_UG_L, clarity
+from turnback.model.scenario import ScenarioResult
 
 from .report import clear_probability_figure, load_figure, recovery_figure, trajectory_figure
 

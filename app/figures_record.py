@@ -7,9 +7,8 @@ from typing import Any
 import numpy as np
 import plotly.graph_objects as go
 from plotly.subplots import make_subplots
-
-from model.clarity import expected_chl, expected_secchi
-from model.early_warning import EarlyWarning
+from turnback.model.clarity import expected_chl, expected_secchi
+from turnback.model.early_warning import EarlyWarning
 
 from .figures import CLEAR, HISTORY, TODAY, TURBID
 

@@ -6,9 +6,8 @@ import math
 from typing import Any
 
 from dash import dcc, html
-
-from model.equilibrium import LakeAnalysis
-from model.params import LakeParameters, LakeProfile
+from turnback.model.equilibrium import LakeAnalysis
+from turnback.model.params import LakeParameters, LakeProfile
 
 from . import ids, view_map, view_plans, view_record
 from .layout_parts import graph_config

@@ -5,10 +5,9 @@ from __future__ import annotations
 from typing import Any
 
 from dash import html
-
-from model.clarity import TP_MAX_UG_L, TP_MIN_UG_L, clarity
-from model.equilibrium import LakeAnalysis, read_state, removal_needed, safety_margin
-from model.params import LakeParameters, LakeProfile
+from turnback.model.clarity import TP_MAX_UG_L, TP_MIN_UG_L, clarity
+from turnback.model.equilibrium import LakeAnalysis, read_state, removal_needed, safety_margin
+from turnback.model.params import LakeParameters, LakeProfile
 
 from . import ids
 

@@ -27,8 +27,7 @@ from typing import Any
 import numpy as np
 import plotly.graph_objects as go
 from plotly.colors import qualitative
-
-from model.scenario import Comparison, ScenarioResult
+from turnback.model.scenario import Comparison, ScenarioResult
 
 __all__ = [
     "CAUTIONS",

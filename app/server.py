@@ -8,14 +8,12 @@ from pathlib import Path
 
 import diskcache
 from dash import Dash, DiskcacheManager
-
-from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
+from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
+from turnback.model.io.resources import assets_folder
 
 from . import callbacks, callbacks_map, callbacks_plans, callbacks_record
 from .layout import build_layout
 from .session import lake_to_store
-
-ASSETS = Path(__file__).resolve().parent.parent / "assets"
 
 
 def cache_dir() -> Path:
@@ -37,7 +35,7 @@ def create_app(data_dir: str | Path | None = None) -> Dash:
     app = Dash(
         __name__,
         title="Turnback",
-        assets_folder=str(ASSETS),
+        assets_folder=assets_folder(),
         background_callback_manager=manager,
         suppress_callback_exceptions=False,
     )

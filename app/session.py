@@ -11,10 +11,9 @@ import json
 from typing import Any
 
 import numpy as np
-
-from model.dynamics import simulate
-from model.equilibrium import equilibria
-from model.params import LakeParameters, LakeProfile
+from turnback.model.dynamics import simulate
+from turnback.model.equilibrium import equilibria
+from turnback.model.params import LakeParameters, LakeProfile
 
 MAX_HISTORY = 4000  # points kept per session; the oldest are dropped beyond this
 MAX_YEARS = 200

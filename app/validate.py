@@ -9,7 +9,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from model.params import LakeParameters, LakeProfile
+from turnback.model.params import LakeParameters, LakeProfile
 
 from .session import Lake, lake_to_store
 

@@ -18,9 +18,8 @@ import time
 
 import numpy as np
 from scipy.integrate import solve_ivp
-
-from model.demo import DEMO_PARAMETERS as P
-from model.equilibrium import analyze, folds
+from turnback.model.demo import DEMO_PARAMETERS as P
+from turnback.model.equilibrium import analyze, folds
 
 
 def engine_once() -> None:

@@ -31,10 +31,9 @@ import time
 from collections.abc import Callable
 
 import numpy as np
-
-from model.dynamics import simulate
-from model.params import LakeParameters
-from model.scenario import ConstantLoad, Scenario, ScenarioLake, lognormal_sigma, run_scenario
+from turnback.model.dynamics import simulate
+from turnback.model.params import LakeParameters
+from turnback.model.scenario import ConstantLoad, Scenario, ScenarioLake, lognormal_sigma, run_scenario
 
 PARAMS = LakeParameters(loss_rate=0.8, recycling_max=30000.0, recycling_half=25000.0, recycling_exponent=6.0)
 LAKE = ScenarioLake(PARAMS, 2.0e8, 50.0, "Lake Amberlin (fictional)")

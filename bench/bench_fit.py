@@ -29,11 +29,10 @@ from pathlib import Path
 
 import numpy as np
 from scipy.special import expit
-
-from model.demo import DEMO_PROFILE
-from model.equilibrium import folds
-from model.fit import PointFit, fit_lake, fit_transitions, refit_batch
-from model.monitoring import parse_monitoring
+from turnback.model.demo import DEMO_PROFILE
+from turnback.model.equilibrium import folds
+from turnback.model.fit import PointFit, fit_lake, fit_transitions, refit_batch
+from turnback.model.monitoring import parse_monitoring
 
 DEMO_CSV = Path(__file__).resolve().parent.parent / "sample_data" / "amberlin_monitoring.csv"
 REPLICATES = 1000

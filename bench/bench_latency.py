@@ -20,10 +20,10 @@ import time
 from collections import defaultdict
 
 from flask import g, request
+from turnback.app.callbacks import history_patches, on_lake, step_session
+from turnback.app.session import lake_to_store, new_history
+from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 
-from app.callbacks import history_patches, on_lake, step_session
-from app.session import lake_to_store, new_history
-from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from tests.browser.harness import CHROMIUM_FLAGS, chromium_path, serve
 
 N_CHANGES = 50
@@ -64,8 +64,7 @@ def main() -> None:
         return
     os.environ.setdefault("TURNBACK_CACHE_DIR", tempfile.mkdtemp(prefix="turnback-bench-"))
     from playwright.sync_api import sync_playwright
-
-    from app.server import create_app
+    from turnback.app.server import create_app
 
     app = create_app()
     request_times: dict[str, list[float]] = defaultdict(list)

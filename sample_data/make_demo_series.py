@@ -52,9 +52,9 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
-from model.dynamics import annual_step
-from model.equilibrium import equilibria
+from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
+from turnback.model.dynamics import annual_step
+from turnback.model.equilibrium import equilibria
 
 SEED = 19790401
 #: (first year, last year, planned load at the start, planned load at the end) [kg yr⁻¹]

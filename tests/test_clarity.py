@@ -8,8 +8,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
-from model.clarity import (
+from turnback.model.clarity import (
     OECD_CLASSES,
     chl_from_tsi,
     clarity,

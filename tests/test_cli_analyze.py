@@ -7,15 +7,14 @@ import subprocess
 import sys
 
 import pytest
-
-from model.equilibrium import folds
-from model.params import DimensionlessLake
+from turnback.model.equilibrium import folds
+from turnback.model.params import DimensionlessLake
 
 BASE = ["--loss-rate", "0.8", "--recycling-max", "1", "--recycling-half", "1", "--recycling-exponent", "8"]
 
 
 def turnback(*args: str) -> subprocess.CompletedProcess[str]:
-    return subprocess.run([sys.executable, "-m", "app.cli", *args], capture_output=True, text=True, timeout=60)
+    return subprocess.run([sys.executable, "-m", "turnback", *args], capture_output=True, text=True, timeout=60)
 
 
 def test_json_contract_hysteretic() -> None:

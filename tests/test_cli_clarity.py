@@ -11,7 +11,7 @@ import pytest
 
 
 def turnback(*args: str) -> subprocess.CompletedProcess[str]:
-    return subprocess.run([sys.executable, "-m", "app.cli", *args], capture_output=True, text=True, timeout=60)
+    return subprocess.run([sys.executable, "-m", "turnback", *args], capture_output=True, text=True, timeout=60)
 
 
 def test_json_contract() -> None:

@@ -11,10 +11,9 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-
-from app.cli import main
-from model.equilibrium import equilibria
-from model.params import LakeParameters
+from turnback.app.cli import main
+from turnback.model.equilibrium import equilibria
+from turnback.model.params import LakeParameters
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -53,7 +52,7 @@ EXAMPLE: dict[str, Any] = {
 
 def turnback(*args: str, cwd: Path) -> subprocess.CompletedProcess[str]:
     return subprocess.run(
-        [sys.executable, "-m", "app.cli", *args],
+        [sys.executable, "-m", "turnback", *args],
         capture_output=True,
         text=True,
         timeout=120,

@@ -10,12 +10,11 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-
-from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
-from model.dynamics import annual_step
-from model.equilibrium import equilibria
-from model.fit import fit_monitoring
-from model.monitoring import parse_monitoring
+from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
+from turnback.model.dynamics import annual_step
+from turnback.model.equilibrium import equilibria
+from turnback.model.fit import fit_monitoring
+from turnback.model.monitoring import parse_monitoring
 
 from .test_monitoring import CORPUS
 
@@ -27,7 +26,7 @@ VOLUME = str(DEMO_PROFILE.volume_m3)
 
 def turnback(*args: str) -> subprocess.CompletedProcess[str]:
     return subprocess.run(
-        [sys.executable, "-m", "app.cli", *args], capture_output=True, text=True, timeout=120, cwd=ROOT
+        [sys.executable, "-m", "turnback", *args], capture_output=True, text=True, timeout=120, cwd=ROOT
     )
 
 
@@ -110,11 +109,11 @@ def test_bad_input_exits_2_with_one_line(args: list[str], fragment: str) -> None
     assert out.stdout == ""
 
 
-# One interpreter runs the command's entry function once per case (what ``python -m app.cli`` does, without
+# One interpreter runs the command's entry function once per case (what ``python -m turnback`` does, without
 # paying the start-up for each of the 37 corpus files); every call's exit status, stdout and stderr are kept.
 DRIVER = r"""
 import contextlib, io, json, sys, traceback
-from app.cli import main
+from turnback.app.cli import main
 cases = json.loads(sys.argv[1])
 out = []
 for argv in cases:

@@ -20,7 +20,7 @@ def test_serve_starts_and_answers(tmp_path) -> None:
     port = free_port()
     env = dict(os.environ, TURNBACK_CACHE_DIR=str(tmp_path / "cache"))
     proc = subprocess.Popen(
-        [sys.executable, "-m", "app.cli", "serve", "--port", str(port)],
+        [sys.executable, "-m", "turnback", "serve", "--port", str(port)],
         stdout=subprocess.PIPE,
         stderr=subprocess.STDOUT,
         text=True,
@@ -45,5 +45,5 @@ def test_serve_starts_and_answers(tmp_path) -> None:
 
 
 def test_serve_rejects_a_bad_port() -> None:
-    out = subprocess.run([sys.executable, "-m", "app.cli", "serve", "--port", "70000"], capture_output=True, text=True)
+    out = subprocess.run([sys.executable, "-m", "turnback", "serve", "--port", "70000"], capture_output=True, text=True)
     assert out.returncode == 2 and "--port" in out.stderr and "Traceback" not in out.stderr

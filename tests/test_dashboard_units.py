@@ -4,16 +4,15 @@ from __future__ import annotations
 
 import plotly.graph_objects as go
 import pytest
-
-from app.callbacks import history_patches, on_settings, step_session
-from app.figures import EQ_CURRENT, EQ_HISTORY, EQ_TRACES, TIME_TRACES, equilibrium_figure, time_figure
-from app.layout import slider_config
-from app.readout import build_readout, removal_text
-from app.session import advance, lake_key, lake_to_store, new_history, remove_p
-from app.validate import FIELD_RULES, check_settings
-from model.demo import DEMO_PARAMETERS as P
-from model.demo import DEMO_PROFILE as PROF
-from model.equilibrium import analyze, equilibria, folds
+from turnback.app.callbacks import history_patches, on_settings, step_session
+from turnback.app.figures import EQ_CURRENT, EQ_HISTORY, EQ_TRACES, TIME_TRACES, equilibrium_figure, time_figure
+from turnback.app.layout import slider_config
+from turnback.app.readout import build_readout, removal_text
+from turnback.app.session import advance, lake_key, lake_to_store, new_history, remove_p
+from turnback.app.validate import FIELD_RULES, check_settings
+from turnback.model.demo import DEMO_PARAMETERS as P
+from turnback.model.demo import DEMO_PROFILE as PROF
+from turnback.model.equilibrium import analyze, equilibria, folds
 
 LAKE = lake_to_store(P, PROF)
 
@@ -142,9 +141,9 @@ def test_settings_messages(field: str, value: str, fragment: str) -> None:
 
 
 def test_regime_map_figure_and_view_switch() -> None:
-    from app.callbacks_map import on_view
-    from app.figures import regime_map_figure
-    from model.regime_map import regime_map
+    from turnback.app.callbacks_map import on_view
+    from turnback.app.figures import regime_map_figure
+    from turnback.model.regime_map import regime_map
 
     rmap = regime_map(P)
     fig = regime_map_figure(rmap, load_now=420.0, cloud=([400.0, 430.0], [0.49, 0.51]))
@@ -153,7 +152,7 @@ def test_regime_map_figure_and_view_switch() -> None:
     lake = next(t for t in fig.data if t.name == "this lake now")
     assert tuple(lake.y) == (P.loss_rate,)
     styles = on_view("map")
-    assert styles[list(__import__("app.ids", fromlist=["VIEWS"]).VIEWS).index("map")] == {}
+    assert styles[list(__import__("turnback.app.ids", fromlist=["VIEWS"]).VIEWS).index("map")] == {}
     assert sum(1 for s in styles if s == {"display": "none"}) == 3
 
 

@@ -4,10 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-
-from model.demo import DEMO_PARAMETERS as P
-from model.dynamics import simulate
-from model.equilibrium import equilibria, folds
+from turnback.model.demo import DEMO_PARAMETERS as P
+from turnback.model.dynamics import simulate
+from turnback.model.equilibrium import equilibria, folds
 
 
 def plain_loop(p0: float, loads: list[float]) -> list[float]:

@@ -9,17 +9,16 @@ import numpy as np
 import pandas as pd
 import pytest
 from scipy.stats import kendalltau
-
-from model.dynamics import simulate
-from model.early_warning import (
+from turnback.model.dynamics import simulate
+from turnback.model.early_warning import (
     BANDWIDTH_TO_SIGMA,
     _kendall_tau_rows,
     early_warning,
     gaussian_detrend,
     rolling_indicators,
 )
-from model.equilibrium import equilibria, folds
-from model.params import DimensionlessLake
+from turnback.model.equilibrium import equilibria, folds
+from turnback.model.params import DimensionlessLake
 
 
 def _series(n: int, seed: int) -> np.ndarray:

@@ -5,10 +5,9 @@ from __future__ import annotations
 import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
-from model.continuation import continue_equilibria, lake_system
-from model.equilibrium import equilibria, equilibrium_curve, folds
-from model.params import LakeParameters
+from turnback.model.continuation import continue_equilibria, lake_system
+from turnback.model.equilibrium import equilibria, equilibrium_curve, folds
+from turnback.model.params import LakeParameters
 
 # Lakes drawn in the dimensionless form (b = s m / r, q) over the span of
 # Carpenter, Ludwig & Brock (1999), fig. 2, then given random mass scales.

@@ -8,9 +8,17 @@ import math
 import numpy as np
 import pytest
 import sympy as sp
-
-from model.equilibrium import analyze, cusp_b, equilibria, folds, irreversible_b, regime, removal_needed, safety_margin
-from model.params import DimensionlessLake, LakeParameters, LakeProfile
+from turnback.model.equilibrium import (
+    analyze,
+    cusp_b,
+    equilibria,
+    folds,
+    irreversible_b,
+    regime,
+    removal_needed,
+    safety_margin,
+)
+from turnback.model.params import DimensionlessLake, LakeParameters, LakeProfile
 
 
 def dimensionless(b: float, q: float) -> LakeParameters:

@@ -7,12 +7,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 from scipy.optimize import curve_fit, least_squares
-
-from model.demo import DEMO_PARAMETERS as TRUE
-from model.demo import DEMO_PROFILE
-from model.dynamics import annual_step
-from model.equilibrium import equilibria, folds
-from model.fit import (
+from turnback.model.demo import DEMO_PARAMETERS as TRUE
+from turnback.model.demo import DEMO_PROFILE
+from turnback.model.dynamics import annual_step
+from turnback.model.equilibrium import equilibria, folds
+from turnback.model.fit import (
     FitBounds,
     bootstrap_refits,
     fit_lake,
@@ -20,8 +19,8 @@ from model.fit import (
     fit_transitions,
     refit_batch,
 )
-from model.monitoring import parse_monitoring
-from model.params import LakeParameters
+from turnback.model.monitoring import parse_monitoring
+from turnback.model.params import LakeParameters
 
 DEMO_CSV = Path(__file__).resolve().parent.parent / "sample_data" / "amberlin_monitoring.csv"
 TIP, REC = folds(TRUE)

@@ -11,9 +11,8 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-
-from model.demo import DEMO_PROFILE
-from model.monitoring import MAX_BYTES, MIN_YEARS, MonitoringError, MonitoringSeries, parse_monitoring
+from turnback.model.demo import DEMO_PROFILE
+from turnback.model.monitoring import MAX_BYTES, MIN_YEARS, MonitoringError, MonitoringSeries, parse_monitoring
 
 ROOT = Path(__file__).resolve().parent.parent
 MALFORMED = Path(__file__).resolve().parent / "malformed"

@@ -5,8 +5,7 @@ from __future__ import annotations
 import math
 
 import pytest
-
-from model.params import DimensionlessLake, LakeParameters, LakeProfile, load_profile_file
+from turnback.model.params import DimensionlessLake, LakeParameters, LakeProfile, load_profile_file
 
 GOOD = {"loss_rate": 0.5, "recycling_max": 1800.0, "recycling_half": 2500.0, "recycling_exponent": 4.0}
 

@@ -17,18 +17,17 @@ from typing import Any
 import numpy as np
 import pytest
 from dash import no_update
-
-from app import callbacks_plans as cp
-from app import ids, view_plans
-from app.figures_plans import TABLE_COLUMNS, outcome_table, result_figures, view_figure
-from app.report import CAUTIONS, outcome_rows, recovery_figure
-from app.session import lake_to_store, new_history, starting_state
-from model.clarity import clarity
-from model.demo import DEMO_PARAMETERS as P
-from model.demo import DEMO_PROFILE as PROF
-from model.equilibrium import equilibria, folds
-from model.params import LakeParameters
-from model.scenario import (
+from turnback.app import callbacks_plans as cp
+from turnback.app import ids, view_plans
+from turnback.app.figures_plans import TABLE_COLUMNS, outcome_table, result_figures, view_figure
+from turnback.app.report import CAUTIONS, outcome_rows, recovery_figure
+from turnback.app.session import lake_to_store, new_history, starting_state
+from turnback.model.clarity import clarity
+from turnback.model.demo import DEMO_PARAMETERS as P
+from turnback.model.demo import DEMO_PROFILE as PROF
+from turnback.model.equilibrium import equilibria, folds
+from turnback.model.params import LakeParameters
+from turnback.model.scenario import (
     ConstantLoad,
     Inactivation,
     LinearCut,
@@ -41,7 +40,7 @@ from model.scenario import (
     precautionary_load,
     scenario_clear_below_kg,
 )
-from model.store import Store
+from turnback.model.store import Store
 
 LAKE = lake_to_store(P, PROF)
 TODAY = PROF.load_kg_yr

@@ -6,11 +6,10 @@ import math
 
 import numpy as np
 import pytest
-
-from model.demo import DEMO_PARAMETERS
-from model.equilibrium import cusp_b, equilibria, folds, irreversible_b, regime
-from model.params import LakeParameters
-from model.regime_map import classify_samples, regime_map
+from turnback.model.demo import DEMO_PARAMETERS
+from turnback.model.equilibrium import cusp_b, equilibria, folds, irreversible_b, regime
+from turnback.model.params import LakeParameters
+from turnback.model.regime_map import classify_samples, regime_map
 
 LAKES = [
     LakeParameters(loss_rate=0.4, recycling_max=1.0, recycling_half=1.0, recycling_exponent=2.0),

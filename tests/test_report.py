@@ -16,8 +16,7 @@ from pathlib import Path
 import numpy as np
 import plotly.graph_objects as go
 import pytest
-
-from app.report import (
+from turnback.app.report import (
     CAUTIONS,
     build_report_html,
     clear_probability_figure,
@@ -27,8 +26,8 @@ from app.report import (
     write_csv,
     write_pngs,
 )
-from model.params import LakeParameters
-from model.scenario import (
+from turnback.model.params import LakeParameters
+from turnback.model.scenario import (
     ConstantLoad,
     LinearCut,
     Plan,
@@ -132,7 +131,7 @@ def test_png_figures(comparison, tmp_path: Path) -> None:  # type: ignore[no-unt
 
 def turnback(*args: str, cwd: Path) -> subprocess.CompletedProcess[str]:
     return subprocess.run(
-        [sys.executable, "-m", "app.cli", *args],
+        [sys.executable, "-m", "turnback", *args],
         capture_output=True,
         text=True,
         timeout=120,

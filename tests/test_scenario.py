@@ -14,10 +14,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.stats import lognorm, norm
-
-from model.equilibrium import equilibria, folds
-from model.params import LakeParameters
-from model.scenario import (
+from turnback.model.equilibrium import equilibria, folds
+from turnback.model.params import LakeParameters
+from turnback.model.scenario import (
     ConstantLoad,
     Inactivation,
     LinearCut,

@@ -11,11 +11,10 @@ import threading
 from pathlib import Path
 
 import pytest
-
-import model.store as store_mod
-from model.params import LakeParameters
-from model.scenario import ConstantLoad, LinearCut, Plan, Removal, Scenario, ScenarioLake
-from model.store import DATA_DIR_ENV, DB_NAME, SCHEMA_VERSION, Store, resolve_data_dir
+import turnback.model.store as store_mod
+from turnback.model.params import LakeParameters
+from turnback.model.scenario import ConstantLoad, LinearCut, Plan, Removal, Scenario, ScenarioLake
+from turnback.model.store import DATA_DIR_ENV, DB_NAME, SCHEMA_VERSION, Store, resolve_data_dir
 
 ROOT = Path(__file__).resolve().parents[1]
 LAKE = ScenarioLake(LakeParameters(0.8, 30000.0, 25000.0, 6.0), 2.0e8, 120.0, "Lake Amberlin (fictional)")
@@ -132,7 +131,7 @@ def test_two_threads_saving_at_once_lose_nothing(tmp_path: Path) -> None:
 
 WRITER = """
 import sys
-from model.store import Store
+from turnback.model.store import Store
 s = Store(sys.argv[1], timeout=60)
 tag = sys.argv[2]
 for i in range(40):
@@ -159,7 +158,7 @@ def test_two_processes_saving_at_once_lose_nothing(tmp_path: Path) -> None:
 
 KILLED = """
 import sys
-from model.store import Store
+from turnback.model.store import Store
 s = Store(sys.argv[1], timeout=60)
 s.save_lake("L", {"v": 0})
 pad = "x" * 300_000
@@ -230,7 +229,7 @@ def test_two_sessions_opening_a_new_database_at_once(tmp_path) -> None:
     # Found in the dashboard: switching a brand-new file to WAL ignores the busy timeout (common practice, no source).
     import threading
 
-    from model.store import Store
+    from turnback.model.store import Store
 
     for trial in range(20):
         folder = tmp_path / f"t{trial}"

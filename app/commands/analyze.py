@@ -7,9 +7,9 @@ import json
 import math
 from typing import Any
 
-from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
-from model.equilibrium import LakeAnalysis, analyze, removal_needed, safety_margin
-from model.params import LakeParameters, LakeProfile, load_profile_file
+from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
+from turnback.model.equilibrium import LakeAnalysis, analyze, removal_needed, safety_margin
+from turnback.model.params import LakeParameters, LakeProfile, load_profile_file
 
 from ._shared import number
 

@@ -7,7 +7,7 @@ import json
 import math
 from typing import Any
 
-from model.clarity import clarity
+from turnback.model.clarity import clarity
 
 from ._shared import number
 

@@ -14,7 +14,7 @@ import json
 import sys
 from typing import Any
 
-from model.scenario import Comparison, compare_plan, load_plan_file
+from turnback.model.scenario import Comparison, compare_plan, load_plan_file
 
 
 def add_parser(sub: Any) -> None:

@@ -26,9 +26,9 @@ import sys
 from pathlib import Path
 from typing import Any
 
-from model.fit import DEFAULT_REPLICATES, MIN_REPLICATES, FitResult, ParameterEstimate, fit_monitoring
-from model.monitoring import MonitoringSeries, parse_monitoring
-from model.params import LakeProfile, load_profile_file
+from turnback.model.fit import DEFAULT_REPLICATES, MIN_REPLICATES, FitResult, ParameterEstimate, fit_monitoring
+from turnback.model.monitoring import MonitoringSeries, parse_monitoring
+from turnback.model.params import LakeProfile, load_profile_file
 
 from ._shared import number
 

@@ -13,8 +13,8 @@ import argparse
 from pathlib import Path
 from typing import Any
 
-from app.report import build_report_html, report_figures, write_csv, write_pngs, write_text_atomic
-from model.scenario import compare_plan, load_plan_file
+from turnback.app.report import build_report_html, report_figures, write_csv, write_pngs, write_text_atomic
+from turnback.model.scenario import compare_plan, load_plan_file
 
 
 def add_parser(sub: Any) -> None:

@@ -21,7 +21,7 @@ def add_parser(sub: Any) -> None:
 def run(args: argparse.Namespace) -> int:
     if not 0 < args.port < 65536:
         raise ValueError(f"--port must be between 1 and 65535; got {args.port}")
-    from app.server import create_app
+    from turnback.app.server import create_app
 
     app = create_app(data_dir=args.data_dir)
     print(f"Turnback dashboard on http://{args.host}:{args.port}/  (Ctrl+C to stop)", flush=True)

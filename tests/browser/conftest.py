@@ -35,7 +35,7 @@ def browser() -> Iterator[Any]:
 @pytest.fixture(scope="module")
 def app_url(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
     os.environ.setdefault("TURNBACK_CACHE_DIR", str(tmp_path_factory.mktemp("cache")))
-    from app.server import create_app
+    from turnback.app.server import create_app
 
     with serve(create_app()) as url:
         yield url

@@ -9,10 +9,9 @@ from __future__ import annotations
 from typing import Any
 
 import pytest
-
-from app.figures import EQ_TRACES
-from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
-from model.equilibrium import equilibria, folds
+from turnback.app.figures import EQ_TRACES
+from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
+from turnback.model.equilibrium import equilibria, folds
 
 TIP, REC = folds(DEMO_PARAMETERS)
 TODAY = DEMO_PROFILE.load_kg_yr

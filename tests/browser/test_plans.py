@@ -14,13 +14,12 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-
-from app import callbacks_plans, ids
-from app.report import CAUTIONS
-from app.session import lake_to_store, new_history
-from model.demo import DEMO_PARAMETERS, DEMO_PROFILE
-from model.equilibrium import folds
-from model.scenario import ConstantLoad, LinearCut, Plan, Scenario, compare_plan
+from turnback.app import callbacks_plans, ids
+from turnback.app.report import CAUTIONS
+from turnback.app.session import lake_to_store, new_history
+from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
+from turnback.model.equilibrium import folds
+from turnback.model.scenario import ConstantLoad, LinearCut, Plan, Scenario, compare_plan
 
 from .harness import Dashboard, serve
 
@@ -56,7 +55,7 @@ def slow_runs(monkeypatch: pytest.MonkeyPatch, tmp_path: Path) -> Iterator[Path]
 @contextmanager
 def dashboard(browser: Any, data_dir: Path) -> Iterator[tuple[Dashboard, list[str]]]:
     """A server on ``data_dir`` and a fresh browser context (a new session) on its plans view."""
-    from app.server import create_app
+    from turnback.app.server import create_app
 
     with serve(create_app(data_dir=data_dir)) as url:
         context = browser.new_context(viewport={"width": 1500, "height": 1250}, accept_downloads=True)

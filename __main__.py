@@ -1,0 +1,5 @@
+"""``python -m turnback``: the same as the ``turnback`` command."""
+
+from turnback.app.cli import entry
+
+entry()

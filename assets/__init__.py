@@ -1,0 +1,1 @@
+"""The dashboard's stylesheet, shipped as package data (read through importlib.resources)."""

@@ -1,0 +1,1 @@
+"""The invented demo data, shipped as package data (read through importlib.resources)."""
