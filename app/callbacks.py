@@ -20,8 +20,8 @@ def _same_lake(a: dict[str, Any], b: dict[str, Any], rtol: float = 1e-5) -> bool
     """Equal parameters and profile numbers to the settings fields' rounding."""
     pa, fa = lake_from_store(a)
     pb, fb = lake_from_store(b)
-    xa = [*pa.to_dict().values(), fa.area_km2, fa.mean_depth_m, fa.load_kg_yr]
-    xb = [*pb.to_dict().values(), fb.area_km2, fb.mean_depth_m, fb.load_kg_yr]
+    xa = [*pa.to_dict().values(), fa.area_km2, fa.mean_depth_m, fa.load_kg_per_yr]
+    xb = [*pb.to_dict().values(), fb.area_km2, fb.mean_depth_m, fb.load_kg_per_yr]
     return all(abs(u - v) <= rtol * max(abs(u), abs(v), 1e-300) for u, v in zip(xa, xb, strict=True))
 
 
@@ -50,7 +50,7 @@ def field_values(lake: dict[str, Any]) -> list[str]:
     values = params.to_dict() | {
         "area_km2": profile.area_km2,
         "mean_depth_m": profile.mean_depth_m,
-        "load_kg_yr": profile.load_kg_yr,
+        "load_kg_yr": profile.load_kg_per_yr,
     }
     return [f"{values[f]:.6g}" for f in FIELD_RULES]
 
@@ -73,7 +73,13 @@ def on_lake(
     slider = slider_config(analysis, profile)
     meeting = is_meeting(meeting_value)
     eq = equilibrium_figure(
-        analysis, profile, history, present_load=profile.load_kg_yr, load_max=slider["max"], meeting=meeting, fit=fit
+        analysis,
+        profile,
+        history,
+        present_load=profile.load_kg_per_yr,
+        load_max=slider["max"],
+        meeting=meeting,
+        fit=fit,
     )
     tf = time_figure(history, profile, meeting=meeting, fit=fit)
     return (

@@ -31,7 +31,7 @@ def on_map(
     if tab != "map":
         return no_update, no_update
     params, profile = lake_from_store(lake)
-    load = history["load"][-1] if history and history.get("lake_key") == lake_key(lake) else profile.load_kg_yr
+    load = history["load"][-1] if history and history.get("lake_key") == lake_key(lake) else profile.load_kg_per_yr
     rmap = regime_map(params, axis=axis if axis in ("loss_rate", "recycling_max") else "loss_rate")  # type: ignore[arg-type]
     cloud = None
     note = f"This lake: {rmap.axis.replace('_', ' ')} {rmap.lake_parameter:.4g} at a load of {load:,.0f} kg/yr."

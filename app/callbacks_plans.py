@@ -1,15 +1,15 @@
 """Callbacks of the plans view: parse the scenario form, run the plan, compare, save, export.
 
 Session state lives in the browser: the plan's scenarios (``PLAN_STORE``,
-each as :meth:`model.scenario.Scenario.to_dict`), the scenario being edited,
+each as :meth:`turnback.model.plan.Scenario.to_dict`), the scenario being edited,
 and the last completed run (``PLAN_RESULTS_STORE``, in the compact form of
 :func:`comparison_to_store`).  Runs and the precautionary-load search are
 background callbacks.  Their Cancel is cooperative: the button leaves a flag
 file named by the run's random token in a folder of the background cache,
-and the run's ``cancel`` hook (:func:`model.scenario.compare_plan`) sees it
-between chunks of members, raises :class:`model.scenario.RunCancelled`, and
+and the run's ``cancel`` hook (:func:`turnback.model.ensemble.compare_plan`) sees it
+between chunks of members, raises :class:`turnback.model.progress.RunCancelled`, and
 the callback says so and keeps the previous results.  Saved plans go to the
-SQLite store (:class:`model.store.Store`), which keeps every save as a
+SQLite store (:class:`turnback.model.io.store.Store`), which keeps every save as a
 revision.
 """
 
@@ -30,30 +30,23 @@ from typing import Any
 
 import numpy as np
 from dash import Dash, Input, Output, State, ctx, html, no_update
+from turnback.model.ensemble import compare_plan
 from turnback.model.equilibrium import folds
-from turnback.model.scenario import (
-    MAX_SCENARIOS,
-    MAX_YEARS,
-    Comparison,
+from turnback.model.io.store import Store
+from turnback.model.outcomes import Comparison, ScenarioResult
+from turnback.model.plan import MAX_SCENARIOS, MAX_YEARS, Plan, Precaution, Scenario, ScenarioLake
+from turnback.model.precaution import PrecautionResult, scenario_precaution
+from turnback.model.progress import RunCancelled
+from turnback.model.schedules import (
     ConstantLoad,
     Inactivation,
     LinearCut,
     LoadSchedule,
-    Plan,
-    Precaution,
-    PrecautionResult,
     Removal,
-    RunCancelled,
-    Scenario,
-    ScenarioLake,
-    ScenarioResult,
     StepLoad,
     TableLoad,
     Treatment,
-    compare_plan,
-    scenario_precaution,
 )
-from turnback.model.store import Store
 
 from . import ids
 from .figures_plans import TABLE_COLUMNS, empty_figure, outcome_table, result_figures
@@ -105,7 +98,7 @@ def current_state(lake: Lake, history: Mapping[str, Any] | None) -> tuple[float,
     params, profile = lake_from_store(lake)
     if history and history.get("lake_key") == lake_key(lake) and history.get("p"):
         return float(history["p"][-1]), float(history["load"][-1]), int(history["year"][-1])
-    return starting_state(params, profile.load_kg_yr), profile.load_kg_yr, None
+    return starting_state(params, profile.load_kg_per_yr), profile.load_kg_per_yr, None
 
 
 def plan_lake(lake: Lake, history: Mapping[str, Any] | None, name: str | None = None) -> ScenarioLake:
@@ -1271,7 +1264,7 @@ def on_export(
 
 # --------------------------------------------------------------------------
 def register(app: Dash, data_dir: Path | None) -> None:
-    """Register the plans view's callbacks; saved scenarios live in ``data_dir`` (see model.store)."""
+    """Register the plans view's callbacks; saved scenarios live in ``data_dir`` (see turnback.model.io.store)."""
     folder = cancel_folder()
     form_states = [State(ids.PLAN_FORM[k], "value") for k in FORM_KEYS]
 

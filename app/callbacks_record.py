@@ -11,9 +11,10 @@ import numpy as np
 from dash import Dash, Input, Output, State, html, no_update
 from turnback.model.early_warning import early_warning
 from turnback.model.fit import FitResult, fit_monitoring
+from turnback.model.io.monitoring_csv import MonitoringError, parse_monitoring
 from turnback.model.io.resources import DEMO_RECORD_NAME, demo_record_bytes
-from turnback.model.monitoring import MonitoringError, MonitoringSeries, parse_monitoring
 from turnback.model.params import LakeProfile
+from turnback.model.record import MonitoringSeries
 
 from . import ids
 from .figures_record import clarity_figure, record_figure, warning_figure
@@ -32,7 +33,7 @@ def record_to_store(series: MonitoringSeries, name: str) -> dict[str, Any]:
     return {
         "name": name,
         "year": [int(y) for y in series.years],
-        "load_kg": [float(v) for v in series.load_kg],
+        "load_kg": [float(v) for v in series.load_kg_per_yr],
         "tp_ug_l": [float(v) for v in series.tp_ug_l],
         "secchi_m": col(series.secchi_m),
         "chl_ug_l": col(series.chl_ug_l),
@@ -46,7 +47,7 @@ def series_from_store(record: dict[str, Any]) -> MonitoringSeries:
 
     return MonitoringSeries(
         years=np.asarray(record["year"], dtype=np.int64),
-        load_kg=np.asarray(record["load_kg"], dtype=float),
+        load_kg_per_yr=np.asarray(record["load_kg"], dtype=float),
         tp_ug_l=np.asarray(record["tp_ug_l"], dtype=float),
         secchi_m=arr("secchi_m"),
         chl_ug_l=arr("chl_ug_l"),
@@ -166,7 +167,7 @@ def fit_to_stores(result: FitResult, record: dict[str, Any], lake: Lake, volume:
         name=f"{base} — fitted to {record['name']}"[:120],
         area_km2=old.area_km2,
         volume_m3=volume,
-        load_kg_yr=float(record["load_kg"][-1]),
+        load_kg_per_yr=float(record["load_kg"][-1]),
     )
     new_lake = lake_to_store(result.params, profile)
     new_lake["start"] = {"year": int(record["year"][-1]), "p": float(profile.mass(record["tp_ug_l"][-1]))}
@@ -210,11 +211,11 @@ def run_fit(
         return no_update, no_update, no_update, "Bootstrap replicates: enter a whole number from 100 to 20000."
     last = [-1]
 
-    def progress(done: int, total: int) -> None:
-        pct = int(100 * done / max(total, 1))
+    def progress(fraction: float, message: str) -> None:
+        pct = int(100 * fraction)
         if pct != last[0]:
             last[0] = pct
-            set_progress((str(pct), f"bootstrap {done} of {total}"))
+            set_progress((str(pct), message))
 
     try:
         result = fit_monitoring(series_from_store(record), volume, replicates=n_rep, rng=FIT_SEED, progress=progress)

@@ -1,6 +1,6 @@
 """The ``turnback`` command line.
 
-Each subcommand lives in its own module under :mod:`app.commands` and
+Each subcommand lives in its own module under :mod:`turnback.app.commands` and
 provides ``add_parser(subparsers)`` and ``run(args) -> int``.  Bad input
 exits with status 2 and a one-line message that says what to fix; no
 traceback is ever shown.

@@ -17,6 +17,7 @@ from turnback.model.clarity import OECD_CLASSES, expected_secchi
 from turnback.model.equilibrium import LakeAnalysis
 from turnback.model.params import LakeProfile
 from turnback.model.regime_map import RegimeMap
+from turnback.model.trophic_coefficients import OECD_1982
 
 #: fixed trace order of the equilibrium figure
 EQ_TRACES = ("lower", "middle", "upper", "folds", "observed", "history", "current")
@@ -252,7 +253,7 @@ def _fold_bands(fig: go.Figure, fit: dict[str, Any], load_max: float, font: int)
 
 
 #: OECD (1982) fixed TP boundaries [µg L⁻¹] between the classes of model.clarity.OECD_CLASSES
-OECD_TP_EDGES = (4.0, 10.0, 35.0, 100.0)
+OECD_TP_EDGES = OECD_1982.tp_ug_l
 
 
 def _trophic_bands(fig: go.Figure, y_top: float, font: int, meeting: bool) -> None:

@@ -1,10 +1,10 @@
 """Figure and table builders of the plans view: scenario results in, figures and table rows out.
 
-The figures are those of the standalone report (:mod:`app.report`), sized
+The figures are those of the standalone report (:mod:`turnback.app.report`), sized
 for the dashboard and, in the meeting view, drawn with larger text and
 thicker lines.  The outcome table adds to each scenario's median final TP
 the summer Secchi depth and trophic classes expected for that TP
-(:func:`model.clarity.clarity`, Carlson 1977; Carlson & Simpson 1996; OECD 1982).
+(:func:`turnback.model.clarity.clarity`, Carlson 1977; Carlson & Simpson 1996; OECD 1982).
 """
 
 from __future__ import annotations
@@ -15,7 +15,7 @@ from typing import Any
 
 import plotly.graph_objects as go
 from turnback.model.clarity import TP_MAX_UG_L, TP_MIN_UG_L, clarity
-from turnback.model.scenario import ScenarioResult
+from turnback.model.outcomes import ScenarioResult
 
 from .report import clear_probability_figure, load_figure, recovery_figure, trajectory_figure
 

@@ -42,13 +42,13 @@ def slider_config(analysis: LakeAnalysis, profile: LakeProfile) -> dict[str, Any
     if analysis.tipping_load is not None:
         top = 2.0 * analysis.tipping_load
     else:
-        top = 2.0 * max(profile.load_kg_yr, float(analysis.curve.load.max()) / 2.0)
-    top = max(top, 1.2 * profile.load_kg_yr, 1e-6)
+        top = 2.0 * max(profile.load_kg_per_yr, float(analysis.curve.load.max()) / 2.0)
+    top = max(top, 1.2 * profile.load_kg_per_yr, 1e-6)
     step = 10.0 ** math.floor(math.log10(top / 500.0))
     top = math.ceil(top / step) * step
     marks: dict[float, Any] = {0: "0", top: f"{top:,.0f}"}
-    marks[profile.load_kg_yr] = {
-        "label": f"today {profile.load_kg_yr:,.0f}",
+    marks[profile.load_kg_per_yr] = {
+        "label": f"today {profile.load_kg_per_yr:,.0f}",
         "style": {"color": "#5b4a8a", "fontWeight": "600"},
     }
     if analysis.tipping_load is not None:
@@ -83,7 +83,7 @@ def settings_panel(params: LakeParameters, profile: LakeProfile) -> html.Details
     values = params.to_dict() | {
         "area_km2": profile.area_km2,
         "mean_depth_m": profile.mean_depth_m,
-        "load_kg_yr": profile.load_kg_yr,
+        "load_kg_yr": profile.load_kg_per_yr,
     }
     return html.Details(
         [
@@ -194,7 +194,7 @@ def build_layout(lake: Lake, record: dict[str, Any] | None = None) -> html.Div:
                                                 id=ids.LOAD_SLIDER,
                                                 min=0,
                                                 max=1,
-                                                value=profile.load_kg_yr,
+                                                value=profile.load_kg_per_yr,
                                                 updatemode="mouseup",
                                                 className="load-slider",
                                             ),

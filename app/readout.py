@@ -69,7 +69,7 @@ def build_readout(
             id=ids.REGIME_WORDS,
         ),
     ]
-    today = profile.load_kg_yr
+    today = profile.load_kg_per_yr
     if analysis.tipping_load is not None and analysis.recovery_load is not None:
         sm = safety_margin(params, load, analysis.folds)
         assert sm.kg_per_yr is not None

@@ -7,7 +7,7 @@ and cautions, the date and the parameters, and carries a sortable outcome
 table.
 
 The model is the annual P map of Carpenter, Ludwig & Brock (1999),
-Ecological Applications 9:751–771; see :mod:`model.scenario` for the
+Ecological Applications 9:751–771; see :mod:`turnback.model.plan` for the
 definitions of every outcome.
 """
 
@@ -27,7 +27,7 @@ from typing import Any
 import numpy as np
 import plotly.graph_objects as go
 from plotly.colors import qualitative
-from turnback.model.scenario import Comparison, ScenarioResult
+from turnback.model.outcomes import Comparison, ScenarioResult
 
 __all__ = [
     "CAUTIONS",

@@ -29,7 +29,7 @@ def create_app(data_dir: str | Path | None = None) -> Dash:
 
     Session state lives in the browser; saved lakes, fits and scenarios go to
     the SQLite store in ``data_dir`` (default: $TURNBACK_DATA_DIR, else
-    ./turnback-data; see :mod:`model.store`).
+    ./turnback-data; see :mod:`turnback.model.io.store`).
     """
     manager = DiskcacheManager(diskcache.Cache(str(cache_dir())))
     app = Dash(

@@ -61,7 +61,7 @@ def starting_state(params: LakeParameters, load: float) -> float:
 
 def new_history(lake: Lake) -> History:
     params, profile = lake_from_store(lake)
-    load = profile.load_kg_yr
+    load = profile.load_kg_per_yr
     start = lake.get("start") or {}
     return {
         "lake_key": lake_key(lake),

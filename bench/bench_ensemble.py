@@ -32,8 +32,11 @@ from collections.abc import Callable
 
 import numpy as np
 from turnback.model.dynamics import simulate
+from turnback.model.ensemble import run_scenario
 from turnback.model.params import LakeParameters
-from turnback.model.scenario import ConstantLoad, Scenario, ScenarioLake, lognormal_sigma, run_scenario
+from turnback.model.plan import Scenario, ScenarioLake
+from turnback.model.schedules import ConstantLoad
+from turnback.model.variability import lognormal_sigma
 
 PARAMS = LakeParameters(loss_rate=0.8, recycling_max=30000.0, recycling_half=25000.0, recycling_exponent=6.0)
 LAKE = ScenarioLake(PARAMS, 2.0e8, 50.0, "Lake Amberlin (fictional)")

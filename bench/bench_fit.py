@@ -32,7 +32,7 @@ from scipy.special import expit
 from turnback.model.demo import DEMO_PROFILE
 from turnback.model.equilibrium import folds
 from turnback.model.fit import PointFit, fit_lake, fit_transitions, refit_batch
-from turnback.model.monitoring import parse_monitoring
+from turnback.model.io.monitoring_csv import parse_monitoring
 
 DEMO_CSV = Path(__file__).resolve().parent.parent / "sample_data" / "amberlin_monitoring.csv"
 REPLICATES = 1000
@@ -42,7 +42,7 @@ YEARS = 40
 
 def record() -> tuple[np.ndarray, np.ndarray]:
     s = parse_monitoring(DEMO_CSV)
-    return s.p_kg(DEMO_PROFILE.volume_m3)[:YEARS], np.asarray(s.load_kg[:YEARS])
+    return s.p_kg(DEMO_PROFILE.volume_m3)[:YEARS], np.asarray(s.load_kg_per_yr[:YEARS])
 
 
 def replicate_records(p: np.ndarray, load: np.ndarray, n: int, seed: int) -> tuple[np.ndarray, PointFit]:

@@ -39,7 +39,7 @@ def server_side(n_changes: int = 200, n_full: int = 30) -> tuple[float, float]:
     lake = lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE)
     history = new_history(lake)
     patch_times, full_times = [], []
-    load = DEMO_PROFILE.load_kg_yr
+    load = DEMO_PROFILE.load_kg_per_yr
     for i in range(n_changes):
         load += 1.0 if i % 2 == 0 else -1.0
         t0 = time.perf_counter()

@@ -20,7 +20,7 @@ Route: TSI equivalence
     results are expected *summer* values.  They are what a typical
     phosphorus-limited lake with that TP looks like, not a forecast for a
     given lake: colour, suspended clay, grazing and nitrogen limitation all
-    move real lakes off these lines (see :func:`compare_observed`).
+    move real lakes off these lines (see :func:`turnback.model.clarity_observed.compare_observed`).
 
 Carlson trophic-state bands (TSI)
     ``TSI < 40`` oligotrophic, ``40 <= TSI < 50`` mesotrophic,
@@ -87,18 +87,18 @@ from typing import Any, Literal
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from .trophic_coefficients import CARLSON_1977, CARLSON_SIMPSON_1996, OECD_1982, WHO_2003
+
 __all__ = [
     "OECD_CLASSES",
     "TSI_CLASSES",
     "ClarityEstimate",
     "ClaritySeries",
-    "ObservedComparison",
     "WhoCaution",
     "chl_from_tsi",
     "clarity",
     "clarity_sentence",
     "clarity_series",
-    "compare_observed",
     "expected_chl",
     "expected_secchi",
     "oecd_class_chl",
@@ -127,22 +127,16 @@ OECD_CLASSES: tuple[OecdClass, ...] = (
 #: Carlson & Simpson (1996) bands as used here, least to most enriched.
 TSI_CLASSES: tuple[TsiClass, ...] = ("oligotrophic", "mesotrophic", "eutrophic", "hypertrophic")
 
-# Carlson (1977) coefficients
-_SD_A, _SD_B = 60.0, 14.41
-_CHL_A, _CHL_B = 30.6, 9.81
-_TP_A, _TP_B = 4.15, 14.42
-
-# Carlson & Simpson (1996) band edges [TSI]; an edge value goes to the higher band
-_TSI_EDGES = (40.0, 50.0, 70.0)
-
-# OECD (1982) fixed boundaries: TP and Chl [µg/L] (larger is more enriched), SD [m] (smaller is)
-_OECD_TP = (4.0, 10.0, 35.0, 100.0)
-_OECD_CHL = (1.0, 2.5, 8.0, 25.0)
-_OECD_SD = (12.0, 6.0, 3.0, 1.5)
-
-# WHO (2003) recreational guidance levels, chlorophyll-a [µg/L] with cyanobacteria dominant
-WHO_LOW_UG_L = 10.0
-WHO_MODERATE_UG_L = 50.0
+# The published coefficient sets (sources in trophic_coefficients.py)
+_SD_A, _SD_B = CARLSON_1977.secchi_a, CARLSON_1977.secchi_b
+_CHL_A, _CHL_B = CARLSON_1977.chl_a, CARLSON_1977.chl_b
+_TP_A, _TP_B = CARLSON_1977.tp_a, CARLSON_1977.tp_b
+_TSI_EDGES = CARLSON_SIMPSON_1996.edges
+_OECD_TP = OECD_1982.tp_ug_l
+_OECD_CHL = OECD_1982.chl_ug_l
+_OECD_SD = OECD_1982.secchi_m
+WHO_LOW_UG_L = WHO_2003.low_probability_ug_l
+WHO_MODERATE_UG_L = WHO_2003.moderate_probability_ug_l
 
 # range accepted by clarity() [µg/L]: far beyond any lake on both sides
 TP_MIN_UG_L = 1.0e-3
@@ -152,7 +146,7 @@ TP_MAX_UG_L = 1.0e6
 # --------------------------------------------------------------------------
 # input checking
 # --------------------------------------------------------------------------
-def _as_positive(name: str, value: Any, unit: str, allow_missing: bool = False) -> NDArray[np.float64]:
+def as_positive(name: str, value: Any, unit: str, allow_missing: bool = False) -> NDArray[np.float64]:
     """``value`` as a float array of finite numbers > 0, or ValueError naming ``name``.
 
     With ``allow_missing`` NaN entries are kept (missing observations).
@@ -189,19 +183,19 @@ def tsi_tp(tp_ug_l: ArrayLike) -> Any:
 
     ``TSI(TP) = 14.42 ln TP + 4.15``.  Scalars give a float, arrays an array.
     """
-    tp = _as_positive("tp_ug_l", tp_ug_l, "[µg L⁻¹]")
+    tp = as_positive("tp_ug_l", tp_ug_l, "[µg L⁻¹]")
     return _out(_TP_B * np.log(tp) + _TP_A)
 
 
 def tsi_chl(chl_ug_l: ArrayLike) -> Any:
     """Carlson (1977) index from chlorophyll-a [µg L⁻¹]: ``9.81 ln Chl + 30.6``."""
-    chl = _as_positive("chl_ug_l", chl_ug_l, "[µg L⁻¹]")
+    chl = as_positive("chl_ug_l", chl_ug_l, "[µg L⁻¹]")
     return _out(_CHL_B * np.log(chl) + _CHL_A)
 
 
 def tsi_secchi(secchi_m: ArrayLike) -> Any:
     """Carlson (1977) index from Secchi depth [m]: ``60 − 14.41 ln SD``."""
-    sd = _as_positive("secchi_m", secchi_m, "[m]")
+    sd = as_positive("secchi_m", secchi_m, "[m]")
     return _out(_SD_A - _SD_B * np.log(sd))
 
 
@@ -287,7 +281,7 @@ def oecd_class_tp(tp_ug_l: ArrayLike) -> Any:
     ``<= 4`` ultra-oligotrophic, ``(4, 10]`` oligotrophic, ``(10, 35]``
     mesotrophic, ``(35, 100)`` eutrophic, ``>= 100`` hypertrophic.
     """
-    return _names(_oecd_rising(_as_positive("tp_ug_l", tp_ug_l, "[µg L⁻¹]"), _OECD_TP))
+    return _names(_oecd_rising(as_positive("tp_ug_l", tp_ug_l, "[µg L⁻¹]"), _OECD_TP))
 
 
 def oecd_class_chl(chl_ug_l: ArrayLike) -> Any:
@@ -295,7 +289,7 @@ def oecd_class_chl(chl_ug_l: ArrayLike) -> Any:
 
     ``<= 1``, ``(1, 2.5]``, ``(2.5, 8]``, ``(8, 25)``, ``>= 25``.
     """
-    return _names(_oecd_rising(_as_positive("chl_ug_l", chl_ug_l, "[µg L⁻¹]"), _OECD_CHL))
+    return _names(_oecd_rising(as_positive("chl_ug_l", chl_ug_l, "[µg L⁻¹]"), _OECD_CHL))
 
 
 def oecd_class_secchi(secchi_m: ArrayLike) -> Any:
@@ -303,7 +297,7 @@ def oecd_class_secchi(secchi_m: ArrayLike) -> Any:
 
     ``>= 12``, ``[6, 12)``, ``[3, 6)``, ``(1.5, 3)``, ``<= 1.5``.
     """
-    return _names(_oecd_falling(_as_positive("secchi_m", secchi_m, "[m]"), _OECD_SD))
+    return _names(_oecd_falling(as_positive("secchi_m", secchi_m, "[m]"), _OECD_SD))
 
 
 # --------------------------------------------------------------------------
@@ -351,7 +345,7 @@ def who_caution(chl_ug_l: float, expected: bool = True) -> WhoCaution:
     implied.  ``expected=True`` words the text for a value estimated from TP
     rather than measured.
     """
-    chl = float(_as_positive("chl_ug_l", chl_ug_l, "[µg L⁻¹]"))
+    chl = float(as_positive("chl_ug_l", chl_ug_l, "[µg L⁻¹]"))
     what = "Expected chlorophyll-a" if expected else "Chlorophyll-a"
     advice = "Follow local health advisories."
     if chl < WHO_LOW_UG_L:
@@ -444,7 +438,7 @@ def clarity(tp_ug_l: float) -> ClarityEstimate:
         When ``tp_ug_l`` is not a finite number, or lies outside
         [0.001, 1 000 000] µg L⁻¹ (no lake is outside it).
     """
-    tp = _as_positive("tp_ug_l", tp_ug_l, "[µg L⁻¹]")
+    tp = as_positive("tp_ug_l", tp_ug_l, "[µg L⁻¹]")
     if tp.ndim != 0:
         raise ValueError("clarity() takes one TP value; use clarity_series() for a series")
     tp_f = float(tp)
@@ -511,7 +505,7 @@ def clarity_series(tp_ug_l: ArrayLike) -> ClaritySeries:
     ValueError
         Naming the first entry that is not a finite number greater than zero.
     """
-    tp = np.atleast_1d(_as_positive("tp_ug_l", tp_ug_l, "[µg L⁻¹]")).astype(float)
+    tp = np.atleast_1d(as_positive("tp_ug_l", tp_ug_l, "[µg L⁻¹]")).astype(float)
     t = _TP_B * np.log(tp) + _TP_A
     chl = np.exp((t - _CHL_A) / _CHL_B)
     sd = np.exp((_SD_A - t) / _SD_B)
@@ -524,149 +518,4 @@ def clarity_series(tp_ug_l: ArrayLike) -> ClaritySeries:
     tsic = np.asarray(TSI_CLASSES)[np.searchsorted(np.asarray(_TSI_EDGES), t, side="right")]
     return ClaritySeries(
         tp_ug_l=tp, tsi_tp=t, chl_ug_l=chl, secchi_m=sd, oecd_class=oecd, tsi_class=tsic, who_level=who
-    )
-
-
-# --------------------------------------------------------------------------
-# monitoring data against the expectation
-# --------------------------------------------------------------------------
-#: TSI units within which two indices are read as agreeing (common practice, no source).
-AGREEMENT_TSI = 5.0
-
-
-@dataclass(frozen=True)
-class ObservedComparison:
-    """Observed Secchi depth and chlorophyll-a against what the observed TP leads one to expect.
-
-    Arrays have the broadcast shape of the inputs (0-d for scalars); an
-    observation not given, or NaN (missing), gives NaN.
-
-    Attributes
-    ----------
-    tsi_tp, tsi_secchi, tsi_chl : ndarray
-        Carlson (1977) indices of the observations.
-    expected_secchi_m, expected_chl_ug_l : ndarray
-        From the observed TP by TSI equivalence.
-    secchi_ratio, chl_ratio : ndarray
-        Observed / expected [–]; ``ln(ratio)`` is the log residual.
-    chl_minus_tp, secchi_minus_tp, chl_minus_secchi : ndarray
-        TSI deviations [TSI units], e.g. ``TSI(Chl) − TSI(TP)``.
-    notes : tuple of str
-        Plain-language reading of the median deviations (Carlson's
-        deviation analysis, as summarised in Carlson & Simpson 1996; from
-        memory, checked against a state agency's summary): deviations within
-        ±5 TSI units count as agreement.
-    """
-
-    tsi_tp: NDArray[np.float64]
-    tsi_secchi: NDArray[np.float64]
-    tsi_chl: NDArray[np.float64]
-    expected_secchi_m: NDArray[np.float64]
-    expected_chl_ug_l: NDArray[np.float64]
-    secchi_ratio: NDArray[np.float64]
-    chl_ratio: NDArray[np.float64]
-    chl_minus_tp: NDArray[np.float64]
-    secchi_minus_tp: NDArray[np.float64]
-    chl_minus_secchi: NDArray[np.float64]
-    notes: tuple[str, ...]
-
-
-def _median(a: NDArray[np.float64]) -> float:
-    finite = a[np.isfinite(a)]
-    return float(np.median(finite)) if finite.size else math.nan
-
-
-def compare_observed(
-    tp_ug_l: ArrayLike,
-    secchi_m: ArrayLike | None = None,
-    chl_ug_l: ArrayLike | None = None,
-) -> ObservedComparison:
-    """Compare monitoring data with the TSI-equivalence expectation from the same samples' TP.
-
-    Parameters
-    ----------
-    tp_ug_l : array_like
-        Observed total phosphorus [µg L⁻¹]; NaN marks a missing sample.
-    secchi_m : array_like, optional
-        Observed Secchi depth [m], same shape (or broadcastable); NaN = missing.
-    chl_ug_l : array_like, optional
-        Observed chlorophyll-a [µg L⁻¹]; NaN = missing.
-
-    Returns
-    -------
-    ObservedComparison
-        Residuals as observed/expected ratios and TSI deviations, with notes.
-        Use summer samples: Carlson's index is built on summer values.
-
-    Raises
-    ------
-    ValueError
-        For zero, negative or infinite values (missing values must be NaN).
-    """
-    tp = _as_positive("tp_ug_l", tp_ug_l, "[µg L⁻¹]", allow_missing=True)
-    nan = np.full(tp.shape, np.nan)
-    sd = _as_positive("secchi_m", secchi_m, "[m]", allow_missing=True) if secchi_m is not None else nan
-    chl = _as_positive("chl_ug_l", chl_ug_l, "[µg L⁻¹]", allow_missing=True) if chl_ug_l is not None else nan
-    try:
-        tp, sd, chl = np.broadcast_arrays(tp, sd, chl)
-    except ValueError:
-        raise ValueError("tp_ug_l, secchi_m and chl_ug_l must have the same length") from None
-    t_tp = _TP_B * np.log(tp) + _TP_A
-    t_sd = _SD_A - _SD_B * np.log(sd)
-    t_chl = _CHL_B * np.log(chl) + _CHL_A
-    exp_sd = np.exp((_SD_A - t_tp) / _SD_B)
-    exp_chl = np.exp((t_tp - _CHL_A) / _CHL_B)
-    d_chl_tp = t_chl - t_tp
-    d_sd_tp = t_sd - t_tp
-    d_chl_sd = t_chl - t_sd
-
-    notes: list[str] = []
-    m_chl_tp = _median(d_chl_tp)
-    m_chl_sd = _median(d_chl_sd)
-    m_sd_tp = _median(d_sd_tp)
-    if math.isfinite(m_chl_tp):
-        if m_chl_tp < -AGREEMENT_TSI:
-            notes.append(
-                f"Less algae than the phosphorus would support (TSI(Chl) − TSI(TP) = {m_chl_tp:+.0f}): "
-                "something other than phosphorus, such as nitrogen, light or zooplankton grazing, may be "
-                "limiting the algae."
-            )
-        elif m_chl_tp > AGREEMENT_TSI:
-            notes.append(
-                f"More algae than expected from phosphorus (TSI(Chl) − TSI(TP) = {m_chl_tp:+.0f}): the algae "
-                "appear limited by phosphorus and use it fully."
-            )
-        else:
-            notes.append(f"Chlorophyll-a is about what the phosphorus leads one to expect ({m_chl_tp:+.0f} TSI).")
-    if math.isfinite(m_chl_sd):
-        if m_chl_sd < -AGREEMENT_TSI:
-            notes.append(
-                f"Water murkier than its algae explain (TSI(Chl) − TSI(SD) = {m_chl_sd:+.0f}): non-algal "
-                "particles or colour, such as clay, silt or humic stain, reduce clarity."
-            )
-        elif m_chl_sd > AGREEMENT_TSI:
-            notes.append(
-                f"Water clearer than its algae suggest (TSI(Chl) − TSI(SD) = {m_chl_sd:+.0f}): large algal "
-                "colonies or filaments may be scattering less light."
-            )
-    elif math.isfinite(m_sd_tp):
-        if m_sd_tp > AGREEMENT_TSI:
-            notes.append(f"Secchi depth shallower than expected from phosphorus (TSI(SD) − TSI(TP) = {m_sd_tp:+.0f}).")
-        elif m_sd_tp < -AGREEMENT_TSI:
-            notes.append(f"Secchi depth deeper than expected from phosphorus (TSI(SD) − TSI(TP) = {m_sd_tp:+.0f}).")
-        else:
-            notes.append(f"Secchi depth is about what the phosphorus leads one to expect ({m_sd_tp:+.0f} TSI).")
-
-    return ObservedComparison(
-        tsi_tp=t_tp,
-        tsi_secchi=t_sd,
-        tsi_chl=t_chl,
-        expected_secchi_m=exp_sd,
-        expected_chl_ug_l=exp_chl,
-        secchi_ratio=sd / exp_sd,
-        chl_ratio=chl / exp_chl,
-        chl_minus_tp=d_chl_tp,
-        secchi_minus_tp=d_sd_tp,
-        chl_minus_secchi=d_chl_sd,
-        notes=tuple(notes),
     )

@@ -1,7 +1,7 @@
 r"""Pseudo-arclength continuation of equilibria for any model ``x' = F(x, L)``.
 
 The one-state lake model has a closed-form equilibrium curve
-(:mod:`model.equilibrium`); models with more state variables (for example a
+(:mod:`turnback.model.equilibrium`); models with more state variables (for example a
 lake with a sediment-P pool) do not.  This module traces their equilibria as
 the load ``L`` varies, detects folds and reports stability from the
 eigenvalues of the Jacobian.

@@ -11,7 +11,7 @@ __all__ = ["DEMO_PARAMETERS", "DEMO_PROFILE"]
 
 #: 6.2 km², 4.5 m mean depth (2.79e7 m³), present-day load 420 kg P yr⁻¹.
 DEMO_PROFILE = LakeProfile.from_depth(
-    name="Lake Amberlin (fictional)", area_km2=6.2, mean_depth_m=4.5, load_kg_yr=420.0
+    name="Lake Amberlin (fictional)", area_km2=6.2, mean_depth_m=4.5, load_kg_per_yr=420.0
 )
 
 #: Loss 0.5 yr⁻¹, recycling up to 1800 kg yr⁻¹, half-saturation 2500 kg, exponent 4.

@@ -324,7 +324,6 @@ class LakeAnalysis:
     curve: EquilibriumCurve
     load: float | None = None
     equilibria: tuple[Equilibrium, ...] = field(default=())
-    status: int = 0
     message: str = ""
 
 
@@ -390,7 +389,15 @@ def folds(params: LakeParameters) -> tuple[Fold, ...]:
     return tuple(out)
 
 
-def _regime_from_folds(fs: tuple[Fold, ...]) -> Regime:
+def regime_from_folds(fs: tuple[Fold, ...]) -> Regime:
+    """The regime a lake's folds say: the one rule of the whole product.
+
+    ``reversible`` with no folds; ``hysteretic`` when the recovery fold
+    (``fs[1]``, where the turbid branch ends) is at a positive load, so a
+    large enough load cut brings the lake back; ``irreversible`` when it is
+    at zero or negative load, so no load cut alone does (Carpenter, Ludwig &
+    Brock 1999).
+    """
     if not fs:
         return "reversible"
     return "hysteretic" if fs[1].load > 0.0 else "irreversible"
@@ -402,7 +409,7 @@ def regime(params: LakeParameters) -> Regime:
 
     Class definitions after Carpenter, Ludwig & Brock (1999).
     """
-    return _regime_from_folds(folds(params))
+    return regime_from_folds(folds(params))
 
 
 # --------------------------------------------------------------------------
@@ -760,7 +767,7 @@ def analyze(
 ) -> LakeAnalysis:
     """Full equilibrium analysis: curve, folds, regime, thresholds, equilibria at ``load``."""
     fs = folds(params)
-    reg = _regime_from_folds(fs)
+    reg = regime_from_folds(fs)
     if load_range is None:
         load_range = default_load_range(params, fs)
     curve = equilibrium_curve(params, load_range, n_points)
@@ -781,6 +788,5 @@ def analyze(
         curve=curve,
         load=load,
         equilibria=eqs,
-        status=0,
         message=messages[reg],
     )

@@ -26,22 +26,18 @@ from __future__ import annotations
 
 import json
 import math
-from dataclasses import asdict, dataclass, fields
-from pathlib import Path
+from dataclasses import dataclass, fields
 from typing import Any, ClassVar
 
-__all__ = ["DimensionlessLake", "LakeParameters", "LakeProfile", "load_profile_file"]
+from . import units
+from .validation import FieldError, known_keys, mapping, number, text
+
+__all__ = ["DimensionlessLake", "LakeParameters", "LakeProfile", "recycling_fraction"]
 
 
 def _check_positive(name: str, value: object, unit: str) -> float:
-    """Return ``value`` as a float, or raise ValueError naming the field."""
-    try:
-        v = float(value)  # type: ignore[arg-type]
-    except (TypeError, ValueError):
-        raise ValueError(f"{name} must be a number greater than 0 {unit}; got {value!r}") from None
-    if not math.isfinite(v) or v <= 0.0:
-        raise ValueError(f"{name} must be a finite number greater than 0 {unit}; got {value!r}")
-    return v
+    """``value`` as a finite float greater than 0, or :class:`FieldError` naming the field."""
+    return number(value, (name,), lo=0.0, lo_open=True, unit=unit)
 
 
 @dataclass(frozen=True)
@@ -117,12 +113,11 @@ class LakeParameters:
         return {f.name: getattr(self, f.name) for f in fields(self)}
 
     @classmethod
-    def from_dict(cls, data: dict[str, Any]) -> LakeParameters:
+    def from_dict(cls, data: object) -> LakeParameters:
         names = [f.name for f in fields(cls)]
-        missing = [n for n in names if n not in data]
-        if missing:
-            raise ValueError(f"lake parameters are missing {', '.join(missing)}")
-        return cls(**{n: data[n] for n in names})
+        d = mapping(data, (), "the four model parameters: " + ", ".join(names))
+        known_keys(d, (), names)
+        return cls(**{n: d[n] for n in names})
 
     def to_json(self) -> str:
         return json.dumps(self.to_dict())
@@ -189,86 +184,73 @@ class LakeProfile:
     volume_m3 : float
         Lake volume [m³], > 0.  Use :meth:`from_depth` to give a mean depth
         instead.
-    load_kg_yr : float
-        Present-day external P load [kg yr⁻¹], >= 0.
+    load_kg_per_yr : float
+        Present-day external P load [kg yr⁻¹], >= 0.  (Lake files and
+        ``to_dict`` call it ``load_kg_yr``, the published file key.)
     """
 
     name: str
     area_km2: float
     volume_m3: float
-    load_kg_yr: float
+    load_kg_per_yr: float
 
     def __post_init__(self) -> None:
-        name = str(self.name).strip()
-        if not name:
-            raise ValueError("name must not be empty")
-        if len(name) > 120:
-            raise ValueError("name must be at most 120 characters")
-        object.__setattr__(self, "name", name)
+        object.__setattr__(self, "name", text(self.name, ("name",)))
         object.__setattr__(self, "area_km2", _check_positive("area_km2", self.area_km2, "[km²]"))
         object.__setattr__(self, "volume_m3", _check_positive("volume_m3", self.volume_m3, "[m³]"))
-        try:
-            load = float(self.load_kg_yr)
-        except (TypeError, ValueError):
-            raise ValueError(f"load_kg_yr must be a number >= 0 [kg yr⁻¹]; got {self.load_kg_yr!r}") from None
-        if not math.isfinite(load) or load < 0.0:
-            raise ValueError(f"load_kg_yr must be a finite number >= 0 [kg yr⁻¹]; got {self.load_kg_yr!r}")
-        object.__setattr__(self, "load_kg_yr", load)
+        load = number(self.load_kg_per_yr, ("load_kg_yr",), lo=0.0, unit="[kg yr⁻¹]")
+        object.__setattr__(self, "load_kg_per_yr", load)
 
     @classmethod
-    def from_depth(cls, name: str, area_km2: float, mean_depth_m: float, load_kg_yr: float) -> LakeProfile:
+    def from_depth(cls, name: str, area_km2: float, mean_depth_m: float, load_kg_per_yr: float) -> LakeProfile:
         """Profile from surface area [km²] and mean depth [m]."""
         area = _check_positive("area_km2", area_km2, "[km²]")
         depth = _check_positive("mean_depth_m", mean_depth_m, "[m]")
-        return cls(name=name, area_km2=area, volume_m3=area * 1.0e6 * depth, load_kg_yr=load_kg_yr)
+        return cls(name=name, area_km2=area, volume_m3=units.volume_m3(area, depth), load_kg_per_yr=load_kg_per_yr)
 
     @property
     def mean_depth_m(self) -> float:
         """Mean depth [m] = volume / area."""
-        return self.volume_m3 / (self.area_km2 * 1.0e6)
+        return float(units.mean_depth_m(self.volume_m3, self.area_km2))
 
     def concentration(self, p_kg: Any) -> Any:
-        """Total phosphorus [µg L⁻¹] from lake P mass [kg].
-
-        ``TP = P · 10⁹ µg kg⁻¹ / (V · 10³ L m⁻³) = 10⁶ P / V``.
-        """
-        return p_kg * 1.0e6 / self.volume_m3
+        """Total phosphorus [µg L⁻¹] from lake P mass [kg]: ``TP = 10⁶ P / V`` (:mod:`turnback.model.units`)."""
+        return units.tp_ug_l(p_kg, self.volume_m3)
 
     def mass(self, tp_ug_l: Any) -> Any:
         """Lake P mass [kg] from total phosphorus [µg L⁻¹]; inverse of :meth:`concentration`."""
-        return tp_ug_l * self.volume_m3 / 1.0e6
+        return units.p_kg(tp_ug_l, self.volume_m3)
 
-    def areal_load(self, load_kg_yr: Any) -> Any:
+    def areal_load(self, load_kg_per_yr: Any) -> Any:
         """Areal load [mg m⁻² yr⁻¹] from load [kg yr⁻¹]: ``10⁶ L / (A · 10⁶) = L / A``."""
-        return load_kg_yr / self.area_km2
+        return units.areal_load(load_kg_per_yr, self.area_km2)
 
     def load_from_areal(self, areal_mg_m2_yr: Any) -> Any:
         """Load [kg yr⁻¹] from areal load [mg m⁻² yr⁻¹]."""
-        return areal_mg_m2_yr * self.area_km2
+        return units.load_from_areal(areal_mg_m2_yr, self.area_km2)
 
     def to_dict(self) -> dict[str, Any]:
-        return asdict(self)
+        """The lake-file fields: ``name``, ``area_km2``, ``volume_m3``, ``load_kg_yr``."""
+        return {
+            "name": self.name,
+            "area_km2": self.area_km2,
+            "volume_m3": self.volume_m3,
+            "load_kg_yr": self.load_kg_per_yr,
+        }
 
     @classmethod
-    def from_dict(cls, data: dict[str, Any]) -> LakeProfile:
-        if not isinstance(data, dict):
-            raise ValueError(
-                "a lake profile must be an object with name, area_km2, volume_m3 or mean_depth_m, load_kg_yr"
+    def from_dict(cls, data: object) -> LakeProfile:
+        d = mapping(data, (), "name, area_km2, volume_m3 or mean_depth_m, load_kg_yr")
+        known_keys(d, (), ("name", "area_km2", "load_kg_yr"), ("volume_m3", "mean_depth_m"))
+        if "volume_m3" in d and "mean_depth_m" in d:
+            raise FieldError(
+                ("mean_depth_m",), "cannot be given with volume_m3: give either volume_m3 or mean_depth_m, not both"
             )
-        known = {"name", "area_km2", "volume_m3", "mean_depth_m", "load_kg_yr"}
-        unknown = sorted(set(data) - known)
-        if unknown:
-            raise ValueError(f"unknown lake profile field(s): {', '.join(unknown)}")
-        for key in ("name", "area_km2", "load_kg_yr"):
-            if key not in data:
-                raise ValueError(f"lake profile is missing {key}")
-        if "volume_m3" in data and "mean_depth_m" in data:
-            raise ValueError("give either volume_m3 or mean_depth_m, not both")
-        if "volume_m3" in data:
-            return cls(data["name"], data["area_km2"], data["volume_m3"], data["load_kg_yr"])
-        if "mean_depth_m" in data:
-            return cls.from_depth(data["name"], data["area_km2"], data["mean_depth_m"], data["load_kg_yr"])
-        raise ValueError("lake profile needs volume_m3 or mean_depth_m")
+        if "volume_m3" in d:
+            return cls(d["name"], d["area_km2"], d["volume_m3"], d["load_kg_yr"])
+        if "mean_depth_m" in d:
+            return cls.from_depth(d["name"], d["area_km2"], d["mean_depth_m"], d["load_kg_yr"])
+        raise FieldError(("volume_m3",), "is required: give volume_m3 or mean_depth_m")
 
     def to_json(self) -> str:
         return json.dumps(self.to_dict())
@@ -276,53 +258,3 @@ class LakeProfile:
     @classmethod
     def from_json(cls, text: str) -> LakeProfile:
         return cls.from_dict(json.loads(text))
-
-
-def load_profile_file(path: str | Path) -> tuple[LakeProfile, LakeParameters | None]:
-    """Read a lake profile from a JSON or TOML file.
-
-    The file holds the profile fields at the top level (``name``,
-    ``area_km2``, ``volume_m3`` or ``mean_depth_m``, ``load_kg_yr``) and,
-    optionally, a ``parameters`` table with the four model parameters.
-
-    Raises
-    ------
-    ValueError
-        With a message that says what to fix, for a missing, unreadable or
-        malformed file.
-    """
-    p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except OSError as exc:
-        raise ValueError(f"cannot read lake file {str(path)!r}: {exc.strerror or exc}") from None
-    if len(raw) > 1_000_000:
-        raise ValueError(f"lake file {str(path)!r} is larger than 1 MB; a lake profile is a few lines")
-    try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError:
-        raise ValueError(f"lake file {str(path)!r} is not UTF-8 text") from None
-    data: Any
-    if p.suffix.lower() == ".toml":
-        import tomllib
-
-        try:
-            data = tomllib.loads(text)
-        except tomllib.TOMLDecodeError as exc:
-            raise ValueError(f"lake file {str(path)!r} is not valid TOML: {exc}") from None
-    else:
-        try:
-            data = json.loads(text)
-        except json.JSONDecodeError as exc:
-            raise ValueError(f"lake file {str(path)!r} is not valid JSON: {exc.msg} at line {exc.lineno}") from None
-    if not isinstance(data, dict):
-        raise ValueError(f"lake file {str(path)!r} must hold an object of lake profile fields")
-    data = dict(data)
-    params_data = data.pop("parameters", None)
-    profile = LakeProfile.from_dict(data)
-    params = None
-    if params_data is not None:
-        if not isinstance(params_data, dict):
-            raise ValueError("'parameters' in the lake file must be a table of the four model parameters")
-        params = LakeParameters.from_dict(params_data)
-    return profile, params

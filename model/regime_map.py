@@ -19,7 +19,7 @@ branch); they meet at the **cusp** :math:`x_c^q = (q-1)/(q+1)`,
 :math:`b_c = g'(x_c)` (for :math:`q = 2`, :math:`b_c = 3\sqrt3/8`,
 :math:`a_c = 1/8`).  The recovery fold crosses zero load at
 :math:`x^q = q - 1`, :math:`b_{irr} = (q-1)^{(q-1)/q}/q`: below it the lake is
-**irreversible**.  Derivations in :mod:`model.equilibrium`.
+**irreversible**.  Derivations in :mod:`turnback.model.equilibrium`.
 
 Two planes are offered, each for fixed values of the other parameters:
 
@@ -56,7 +56,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy.special import expit
 
-from .equilibrium import Regime, cusp_b, folds, irreversible_b
+from .equilibrium import Regime, cusp_b, folds, irreversible_b, regime_from_folds
 from .params import LakeParameters
 
 __all__ = [
@@ -245,8 +245,8 @@ class RegimeMap:
 
         ``load`` [kg yr⁻¹] and ``parameter`` broadcast against each other.
         The fold loads at each distinct parameter value come from the
-        engine (:func:`model.equilibrium.folds`), so the classes agree with
-        :func:`model.equilibrium.equilibria`.  A point exactly on a fold
+        engine (:func:`turnback.model.equilibrium.folds`), so the classes agree with
+        :func:`turnback.model.equilibrium.equilibria`.  A point exactly on a fold
         curve counts the fold as not stable.
 
         Raises
@@ -269,11 +269,9 @@ class RegimeMap:
         reg = np.empty(uniq.shape, dtype="<U12")
         for i, v in enumerate(uniq):
             fs = folds(self._with(float(v)))
+            reg[i] = regime_from_folds(fs)
             if fs:
                 tip[i], rec[i] = fs[0].load, fs[1].load
-                reg[i] = "hysteretic" if fs[1].load > 0.0 else "irreversible"
-            else:
-                reg[i] = "reversible"
         inverse = inverse.reshape(pa.shape)
         t, r, g = tip[inverse], rec[inverse], reg[inverse]
         has = np.isfinite(t)
@@ -528,8 +526,8 @@ def classify_samples(samples: Any) -> SampleRegimes:
 
     ``b = s m / r``; reversible for ``q <= 1`` or ``b >= b_c(q)``,
     irreversible for ``b <= b_irr(q)``, hysteretic between (see
-    :func:`model.equilibrium.cusp_b`, :func:`model.equilibrium.irreversible_b`).
-    The same classes as :func:`model.equilibrium.regime`, up to rounding
+    :func:`turnback.model.equilibrium.cusp_b`, :func:`turnback.model.equilibrium.irreversible_b`).
+    The same classes as :func:`turnback.model.equilibrium.regime`, up to rounding
     for a sample within ~1e-12 of a boundary.
 
     Parameters

@@ -19,7 +19,7 @@ LAKE = lake_to_store(P, PROF)
 
 def test_new_history_starts_on_the_clear_branch() -> None:
     h = new_history(LAKE)
-    assert h["p"] == [equilibria(P, PROF.load_kg_yr)[0].p]
+    assert h["p"] == [equilibria(P, PROF.load_kg_per_yr)[0].p]
     assert h["lake_key"] == lake_key(LAKE)
 
 
@@ -40,7 +40,7 @@ def test_advance_and_removal_follow_the_annual_map() -> None:
 
 def test_step_session_actions() -> None:
     h = new_history(LAKE)
-    same, _, _ = step_session("load-slider", PROF.load_kg_yr, h, LAKE, 5, 0)
+    same, _, _ = step_session("load-slider", PROF.load_kg_per_yr, h, LAKE, 5, 0)
     assert same is None  # the slider being set to the current load is not a change
     moved, _, _ = step_session("load-slider", 500.0, h, LAKE, 5, 0)
     assert moved is not None and moved["load"][-1] == 500.0
@@ -55,7 +55,7 @@ def test_step_session_actions() -> None:
 def test_equilibrium_figure_layers() -> None:
     res = analyze(P, n_points=500)
     h = advance(new_history(LAKE), P, 600.0, 10)
-    fig = equilibrium_figure(res, PROF, h, present_load=PROF.load_kg_yr, load_max=1100.0)
+    fig = equilibrium_figure(res, PROF, h, present_load=PROF.load_kg_per_yr, load_max=1100.0)
     assert isinstance(fig, go.Figure)
     assert len(fig.data) == len(EQ_TRACES)
     assert fig.data[EQ_TRACES.index("middle")].line.dash == "dash"
@@ -66,7 +66,7 @@ def test_equilibrium_figure_layers() -> None:
     assert len(fig.data[EQ_TRACES.index("folds")].x) == 2
     band = [s for s in fig.layout.shapes if s.type == "rect"]
     assert band and band[0].x0 == pytest.approx(res.recovery_load) and band[0].x1 == pytest.approx(res.tipping_load)
-    meeting = equilibrium_figure(res, PROF, h, present_load=PROF.load_kg_yr, load_max=1100.0, meeting=True)
+    meeting = equilibrium_figure(res, PROF, h, present_load=PROF.load_kg_per_yr, load_max=1100.0, meeting=True)
     assert meeting.layout.font.size > fig.layout.font.size
     assert "kg" in meeting.layout.xaxis.title.text and "[" not in meeting.layout.xaxis.title.text
 
@@ -87,12 +87,12 @@ def test_slider_config_marks_today_and_spans_twice_tipping() -> None:
     cfg = slider_config(res, PROF)
     assert cfg["max"] >= 2 * res.tipping_load
     assert cfg["max"] < 2 * res.tipping_load + 10 * cfg["step"]
-    assert PROF.load_kg_yr in cfg["marks"]
+    assert PROF.load_kg_per_yr in cfg["marks"]
 
 
 def test_readout_words() -> None:
     res = analyze(P, n_points=50)
-    load = PROF.load_kg_yr
+    load = PROF.load_kg_per_yr
     low, _, high = equilibria(P, load)
     rows = str(build_readout(P, PROF, res, load, low.p))
     # (420 - 284.8) / 420 = 32% by hand from the engine's recovery load
@@ -159,7 +159,7 @@ def test_regime_map_figure_and_view_switch() -> None:
 def test_readout_gives_clarity_and_who_caution() -> None:
     # TP 32 µg/L: Carlson (1977) TSI equivalence gives chlorophyll about 11 µg/L, above the WHO (2003) 10 µg/L level.
     res = analyze(P, n_points=50)
-    load = PROF.load_kg_yr
+    load = PROF.load_kg_per_yr
     low = equilibria(P, load)[0]
     rows = str(build_readout(P, PROF, res, load, low.p))
     assert "Secchi depth about" in rows and "WHO (2003)" in rows and "local health advisories" in rows

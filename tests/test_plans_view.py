@@ -23,27 +23,19 @@ from turnback.app.figures_plans import TABLE_COLUMNS, outcome_table, result_figu
 from turnback.app.report import CAUTIONS, outcome_rows, recovery_figure
 from turnback.app.session import lake_to_store, new_history, starting_state
 from turnback.model.clarity import clarity
+from turnback.model.clear_state import scenario_clear_below_kg
 from turnback.model.demo import DEMO_PARAMETERS as P
 from turnback.model.demo import DEMO_PROFILE as PROF
+from turnback.model.ensemble import compare_plan
 from turnback.model.equilibrium import equilibria, folds
+from turnback.model.io.store import Store
 from turnback.model.params import LakeParameters
-from turnback.model.scenario import (
-    ConstantLoad,
-    Inactivation,
-    LinearCut,
-    Plan,
-    Removal,
-    Scenario,
-    StepLoad,
-    TableLoad,
-    compare_plan,
-    precautionary_load,
-    scenario_clear_below_kg,
-)
-from turnback.model.store import Store
+from turnback.model.plan import Plan, Scenario
+from turnback.model.precaution import precautionary_load
+from turnback.model.schedules import ConstantLoad, Inactivation, LinearCut, Removal, StepLoad, TableLoad
 
 LAKE = lake_to_store(P, PROF)
-TODAY = PROF.load_kg_yr
+TODAY = PROF.load_kg_per_yr
 TIP = folds(P)[0]
 
 

@@ -26,17 +26,10 @@ from turnback.app.report import (
     write_csv,
     write_pngs,
 )
+from turnback.model.ensemble import compare_plan
 from turnback.model.params import LakeParameters
-from turnback.model.scenario import (
-    ConstantLoad,
-    LinearCut,
-    Plan,
-    Precaution,
-    Removal,
-    Scenario,
-    ScenarioLake,
-    compare_plan,
-)
+from turnback.model.plan import Plan, Precaution, Scenario, ScenarioLake
+from turnback.model.schedules import ConstantLoad, LinearCut, Removal
 
 ROOT = Path(__file__).resolve().parents[1]
 LAKE = ScenarioLake(LakeParameters(0.8, 30000.0, 25000.0, 6.0), 2.0e8, 120.0, "Lake Amberlin (fictional)")

@@ -9,7 +9,8 @@ from typing import Any
 
 from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from turnback.model.equilibrium import LakeAnalysis, analyze, removal_needed, safety_margin
-from turnback.model.params import LakeParameters, LakeProfile, load_profile_file
+from turnback.model.io.lake_file import load_profile_file
+from turnback.model.params import LakeParameters, LakeProfile
 
 from ._shared import number
 
@@ -143,7 +144,7 @@ def run(args: argparse.Namespace) -> int:
     if load is not None and not math.isfinite(load):
         raise ValueError(f"--load must be a finite number; got {load:g}")
     if args.load is None and (args.demo or (args.lake and profile is not None)) and profile is not None:
-        load = profile.load_kg_yr
+        load = profile.load_kg_per_yr
     load_range = tuple(args.load_range) if args.load_range else None
     if load_range is not None:
         lo, hi = load_range

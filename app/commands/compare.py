@@ -4,7 +4,7 @@
 ``{"scenarios": [{"name", "p_clear_final", "p_flip", "recovery_years_median",
 "final_tp_median_ug_l"}, ...]}`` in input order; ``--full`` adds the other
 outcome numbers.  Definitions (year numbering, clear state, recovery, flip)
-are in :mod:`model.scenario`.
+are in :mod:`turnback.model.plan`.
 """
 
 from __future__ import annotations
@@ -14,7 +14,9 @@ import json
 import sys
 from typing import Any
 
-from turnback.model.scenario import Comparison, compare_plan, load_plan_file
+from turnback.model.ensemble import compare_plan
+from turnback.model.io.plan_file import load_plan_file
+from turnback.model.outcomes import Comparison
 
 
 def add_parser(sub: Any) -> None:

@@ -2,9 +2,9 @@
 
 ``turnback fit FILE.csv --volume-m3 V [--replicates N] [--seed K] [--json]``
 (or ``--lake FILE`` for the volume) reads a monitoring CSV
-(:mod:`model.monitoring`), fits the annual map by conditional least squares
+(:mod:`turnback.model.io.monitoring_csv`), fits the annual map by conditional least squares
 under lognormal process error and bootstraps the tipping and recovery
-loads (:mod:`model.fit`).  ``--json`` prints one object::
+loads (:mod:`turnback.model.fit`).  ``--json`` prints one object::
 
     {"params": {"loss_rate", "recycling_max", "recycling_half", "recycling_exponent"},
      "tipping_load": {"estimate", "low", "high"},
@@ -27,8 +27,10 @@ from pathlib import Path
 from typing import Any
 
 from turnback.model.fit import DEFAULT_REPLICATES, MIN_REPLICATES, FitResult, ParameterEstimate, fit_monitoring
-from turnback.model.monitoring import MonitoringSeries, parse_monitoring
-from turnback.model.params import LakeProfile, load_profile_file
+from turnback.model.io.lake_file import load_profile_file
+from turnback.model.io.monitoring_csv import parse_monitoring
+from turnback.model.params import LakeProfile
+from turnback.model.record import MonitoringSeries
 
 from ._shared import number
 
@@ -81,11 +83,11 @@ def _volume(args: argparse.Namespace) -> tuple[float, LakeProfile | None]:
 def _progress_printer() -> Any:
     last = [-1]
 
-    def report(done: int, total: int) -> None:
-        step = (10 * done) // max(total, 1)
+    def report(fraction: float, message: str) -> None:
+        step = int(10 * fraction)
         if step != last[0]:
             last[0] = step
-            print(f"turnback fit: bootstrap {done}/{total}", file=sys.stderr, flush=True)
+            print(f"turnback fit: {message}", file=sys.stderr, flush=True)
 
     return report
 

@@ -14,7 +14,8 @@ from pathlib import Path
 from typing import Any
 
 from turnback.app.report import build_report_html, report_figures, write_csv, write_pngs, write_text_atomic
-from turnback.model.scenario import compare_plan, load_plan_file
+from turnback.model.ensemble import compare_plan
+from turnback.model.io.plan_file import load_plan_file
 
 
 def add_parser(sub: Any) -> None:

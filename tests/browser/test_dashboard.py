@@ -14,7 +14,7 @@ from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from turnback.model.equilibrium import equilibria, folds
 
 TIP, REC = folds(DEMO_PARAMETERS)
-TODAY = DEMO_PROFILE.load_kg_yr
+TODAY = DEMO_PROFILE.load_kg_per_yr
 
 
 def tp_of(p_kg: float) -> float:

@@ -18,13 +18,15 @@ from turnback.app import callbacks_plans, ids
 from turnback.app.report import CAUTIONS
 from turnback.app.session import lake_to_store, new_history
 from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
+from turnback.model.ensemble import compare_plan
 from turnback.model.equilibrium import folds
-from turnback.model.scenario import ConstantLoad, LinearCut, Plan, Scenario, compare_plan
+from turnback.model.plan import Plan, Scenario
+from turnback.model.schedules import ConstantLoad, LinearCut
 
 from .harness import Dashboard, serve
 
 TIP = folds(DEMO_PARAMETERS)[0]
-TODAY = DEMO_PROFILE.load_kg_yr
+TODAY = DEMO_PROFILE.load_kg_per_yr
 HIGH = round(1.1 * TIP.load)  # above the tipping load: the clear state is lost
 #: pause after each progress report [s], so that a run lasts long enough to watch and to cancel;
 #: read by the background job, which is forked from this process when a run starts

@@ -13,7 +13,6 @@ from turnback.model.clarity import (
     chl_from_tsi,
     clarity,
     clarity_series,
-    compare_observed,
     expected_chl,
     expected_secchi,
     oecd_class_chl,
@@ -26,6 +25,7 @@ from turnback.model.clarity import (
     tsi_tp,
     who_caution,
 )
+from turnback.model.clarity_observed import compare_observed
 
 # --------------------------------------------------------------------------
 # Carlson (1977), A trophic state index for lakes, Limnol. Oceanogr. 22:361-369, table of

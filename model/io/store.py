@@ -9,7 +9,7 @@ Where
 What
     Lakes by name; for each lake, fitted results and scenarios by name.  The
     content of each is a JSON object (a "blob"; scenarios in the form of
-    :meth:`model.scenario.Scenario.to_dict`).  Every save adds a new
+    :meth:`turnback.model.plan.Scenario.to_dict`).  Every save adds a new
     *revision* and never overwrites an old one, so two sessions saving the
     same name at once both keep their work; readers get the latest revision,
     and :meth:`Store.history` lists them all.
@@ -43,7 +43,7 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any, Literal
 
-from .scenario import Plan, Scenario, ScenarioLake
+from ..plan import Plan, Scenario, ScenarioLake
 
 __all__ = [
     "DATA_DIR_ENV",
@@ -52,6 +52,7 @@ __all__ = [
     "MIGRATIONS",
     "SCHEMA_VERSION",
     "Store",
+    "StoreBusy",
     "StoredItem",
     "resolve_data_dir",
 ]
@@ -86,6 +87,10 @@ MIGRATIONS: tuple[tuple[str, ...], ...] = (
     ),
 )
 SCHEMA_VERSION = len(MIGRATIONS)
+
+
+class StoreBusy(ValueError):
+    """The database is busy or locked by another session for longer than the timeout; try again."""
 
 
 def resolve_data_dir(data_dir: str | os.PathLike[str] | None = None) -> Path:
@@ -195,6 +200,11 @@ class Store:
                 raise ValueError(f"{str(self.path)!r} could not be switched to WAL mode (got {mode})")
             self._conn.execute("PRAGMA synchronous = FULL")
             self._migrate()
+        except sqlite3.OperationalError as exc:
+            self._conn.close()
+            if "locked" in str(exc) or "busy" in str(exc):
+                raise StoreBusy(f"the database is busy or locked ({exc}); try again") from None
+            raise ValueError(f"cannot use {str(self.path)!r} ({exc})") from None
         except sqlite3.DatabaseError as exc:
             self._conn.close()
             raise ValueError(
@@ -214,7 +224,7 @@ class Store:
             try:
                 conn.execute("BEGIN IMMEDIATE")
             except sqlite3.OperationalError as exc:
-                raise ValueError(f"the database is busy or locked ({exc}); try again") from None
+                raise StoreBusy(f"the database is busy or locked ({exc}); try again") from None
             try:
                 yield conn
                 conn.execute("COMMIT")

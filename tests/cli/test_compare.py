@@ -15,7 +15,7 @@ from turnback.app.cli import main
 from turnback.model.equilibrium import equilibria
 from turnback.model.params import LakeParameters
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 
 # The shape the contract must accept, verbatim from the task.
 EXAMPLE: dict[str, Any] = {

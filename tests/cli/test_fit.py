@@ -14,13 +14,13 @@ from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from turnback.model.dynamics import annual_step
 from turnback.model.equilibrium import equilibria
 from turnback.model.fit import fit_monitoring
-from turnback.model.monitoring import parse_monitoring
+from turnback.model.io.monitoring_csv import parse_monitoring
 
-from .test_monitoring import CORPUS
+from tests.model.test_monitoring import CORPUS
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = Path(__file__).resolve().parents[2]
 DEMO_CSV = ROOT / "sample_data" / "amberlin_monitoring.csv"
-MALFORMED = Path(__file__).resolve().parent / "malformed"
+MALFORMED = Path(__file__).resolve().parents[1] / "malformed"
 VOLUME = str(DEMO_PROFILE.volume_m3)
 
 
@@ -69,7 +69,7 @@ def test_table_and_progress(tmp_path: Path) -> None:
     for text in ("tipping load", "recovery load", "loss rate s", "Regime (best fit: hysteretic)", "Warnings:"):
         assert text in out.stdout
     assert "Only 200 bootstrap replicates" in out.stdout
-    assert "bootstrap 200/200" in out.stderr and "Traceback" not in out.stderr
+    assert "200 of 200 bootstrap refits" in out.stderr and "Traceback" not in out.stderr
 
 
 def test_one_state_record_gets_nulls_and_the_warning(tmp_path: Path) -> None:

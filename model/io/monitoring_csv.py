@@ -43,12 +43,12 @@ import io
 import math
 import os
 import re
-from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
+
+from ..record import MonitoringSeries
 
 __all__ = [
     "MAX_BYTES",
@@ -112,79 +112,6 @@ class MonitoringError(ValueError):
         if more > 0:
             shown += f" | and {more} more problem{'s' if more > 1 else ''} of the same kind"
         super().__init__(shown)
-
-
-def _frozen(a: Any) -> Any:
-    out = np.array(a, copy=True)
-    out.setflags(write=False)
-    return out
-
-
-@dataclass(frozen=True, eq=False)
-class MonitoringSeries:
-    """An annual monitoring record, checked and ready to fit.
-
-    Attributes
-    ----------
-    years : ndarray of int, shape (n,)
-        Consecutive calendar years, ascending.
-    load_kg : ndarray, shape (n,)
-        External total phosphorus load in each year [kg yr⁻¹].
-    tp_ug_l : ndarray, shape (n,)
-        Mean lake total phosphorus in each year [µg L⁻¹].
-    secchi_m : ndarray or None
-        Mean Secchi depth [m]; ``nan`` where a year has none.
-    chl_ug_l : ndarray or None
-        Mean chlorophyll a [µg L⁻¹]; ``nan`` where a year has none.
-    lines : ndarray of int, shape (n,)
-        File line number of each year's row, for messages.
-    notes : tuple of str
-        Things the reader ignored (extra columns), in plain words.
-
-    Arrays are read-only copies.
-    """
-
-    years: NDArray[np.int64]
-    load_kg: NDArray[np.float64]
-    tp_ug_l: NDArray[np.float64]
-    secchi_m: NDArray[np.float64] | None = None
-    chl_ug_l: NDArray[np.float64] | None = None
-    lines: NDArray[np.int64] | None = None
-    notes: tuple[str, ...] = field(default=())
-
-    def __post_init__(self) -> None:
-        years = np.asarray(self.years, dtype=np.int64)
-        n = years.size
-        if years.ndim != 1:
-            raise ValueError("years must be one-dimensional")
-        object.__setattr__(self, "years", _frozen(years))
-        for name in ("load_kg", "tp_ug_l", "secchi_m", "chl_ug_l"):
-            value = getattr(self, name)
-            if value is None:
-                continue
-            arr = np.asarray(value, dtype=float)
-            if arr.shape != (n,):
-                raise ValueError(f"{name} must have one value per year ({n}); got shape {arr.shape}")
-            object.__setattr__(self, name, _frozen(arr))
-        lines = np.arange(2, n + 2) if self.lines is None else np.asarray(self.lines, dtype=np.int64)
-        object.__setattr__(self, "lines", _frozen(lines))
-        object.__setattr__(self, "notes", tuple(self.notes))
-
-    @property
-    def n_years(self) -> int:
-        """Number of years in the record."""
-        return int(self.years.size)
-
-    def p_kg(self, volume_m3: float) -> NDArray[np.float64]:
-        """Lake P mass [kg] in each year: ``P = TP · V / 10⁶`` with ``V`` [m³].
-
-        ``1 µg L⁻¹ · 1 m³ = 10³ µg = 10⁻⁶ kg``.
-        """
-        v = float(volume_m3)
-        if not math.isfinite(v) or v <= 0.0:
-            raise ValueError(f"lake volume must be a finite number greater than 0 [m³]; got {volume_m3!r}")
-        out: NDArray[np.float64] = self.tp_ug_l * v / 1.0e6
-        return out
 
 
 # --------------------------------------------------------------------------
@@ -476,7 +403,7 @@ def parse_monitoring(source: bytes | bytearray | memoryview | str | os.PathLike[
     if problems:
         raise MonitoringError(problems)
     return MonitoringSeries(
-        years=years, load_kg=load, tp_ug_l=tp, secchi_m=secchi, chl_ug_l=chl, lines=line_arr, notes=notes
+        years=years, load_kg_per_yr=load, tp_ug_l=tp, secchi_m=secchi, chl_ug_l=chl, lines=line_arr, notes=notes
     )
 
 

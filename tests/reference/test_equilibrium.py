@@ -158,7 +158,7 @@ def test_curve_has_three_branches_and_exact_folds() -> None:
 
 def test_removal_needed_crosses_the_separatrix() -> None:
     p = LakeParameters(0.5, 1800, 2500, 4)
-    prof = LakeProfile(name="T", area_km2=1, volume_m3=2.79e7, load_kg_yr=420)
+    prof = LakeProfile(name="T", area_km2=1, volume_m3=2.79e7, load_kg_per_yr=420)
     need = removal_needed(p, 420.0, margin=0.1, profile=prof)
     eqs = equilibria(p, 420.0)
     assert need.status == "needed"

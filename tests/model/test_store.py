@@ -11,12 +11,13 @@ import threading
 from pathlib import Path
 
 import pytest
-import turnback.model.store as store_mod
+import turnback.model.io.store as store_mod
+from turnback.model.io.store import DATA_DIR_ENV, DB_NAME, SCHEMA_VERSION, Store, resolve_data_dir
 from turnback.model.params import LakeParameters
-from turnback.model.scenario import ConstantLoad, LinearCut, Plan, Removal, Scenario, ScenarioLake
-from turnback.model.store import DATA_DIR_ENV, DB_NAME, SCHEMA_VERSION, Store, resolve_data_dir
+from turnback.model.plan import Plan, Scenario, ScenarioLake
+from turnback.model.schedules import ConstantLoad, LinearCut, Removal
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 LAKE = ScenarioLake(LakeParameters(0.8, 30000.0, 25000.0, 6.0), 2.0e8, 120.0, "Lake Amberlin (fictional)")
 SCEN = Scenario(
     "cut", 40, LinearCut(9000.0, 60.0, 10), variability_cv=0.3, members=200, seed=2, treatments=(Removal(3, 5000.0),)
@@ -131,7 +132,7 @@ def test_two_threads_saving_at_once_lose_nothing(tmp_path: Path) -> None:
 
 WRITER = """
 import sys
-from turnback.model.store import Store
+from turnback.model.io.store import Store
 s = Store(sys.argv[1], timeout=60)
 tag = sys.argv[2]
 for i in range(40):
@@ -158,7 +159,7 @@ def test_two_processes_saving_at_once_lose_nothing(tmp_path: Path) -> None:
 
 KILLED = """
 import sys
-from turnback.model.store import Store
+from turnback.model.io.store import Store
 s = Store(sys.argv[1], timeout=60)
 s.save_lake("L", {"v": 0})
 pad = "x" * 300_000
@@ -229,7 +230,7 @@ def test_two_sessions_opening_a_new_database_at_once(tmp_path) -> None:
     # Found in the dashboard: switching a brand-new file to WAL ignores the busy timeout (common practice, no source).
     import threading
 
-    from turnback.model.store import Store
+    from turnback.model.io.store import Store
 
     for trial in range(20):
         folder = tmp_path / f"t{trial}"

@@ -11,18 +11,11 @@ from turnback.model.demo import DEMO_PARAMETERS as TRUE
 from turnback.model.demo import DEMO_PROFILE
 from turnback.model.dynamics import annual_step
 from turnback.model.equilibrium import equilibria, folds
-from turnback.model.fit import (
-    FitBounds,
-    bootstrap_refits,
-    fit_lake,
-    fit_monitoring,
-    fit_transitions,
-    refit_batch,
-)
-from turnback.model.monitoring import parse_monitoring
+from turnback.model.fit import FitBounds, bootstrap_refits, fit_lake, fit_monitoring, fit_transitions, refit_batch
+from turnback.model.io.monitoring_csv import parse_monitoring
 from turnback.model.params import LakeParameters
 
-DEMO_CSV = Path(__file__).resolve().parent.parent / "sample_data" / "amberlin_monitoring.csv"
+DEMO_CSV = Path(__file__).resolve().parents[2] / "sample_data" / "amberlin_monitoring.csv"
 TIP, REC = folds(TRUE)
 
 # A 45-year load plan that takes the demo lake over the tipping load, holds it turbid, cuts the load below the
@@ -160,15 +153,15 @@ def test_demo_record_brackets_the_parameters_it_was_made_with() -> None:
 
 def test_same_seed_same_answer_and_progress_is_reported() -> None:
     p, load = simulate_record(3)
-    calls: list[tuple[int, int]] = []
-    a = fit_lake(p, load, replicates=150, rng=42, progress=lambda d, t: calls.append((d, t)))
+    calls: list[tuple[float, str]] = []
+    a = fit_lake(p, load, replicates=150, rng=42, progress=lambda f, m: calls.append((f, m)))
     b = fit_lake(p, load, replicates=150, rng=np.random.default_rng(42))
     c = fit_lake(p, load, replicates=150, rng=43)
     assert a.to_dict() == b.to_dict()
     assert np.array_equal(a.draws.tipping, b.draws.tipping, equal_nan=True)
     assert not np.array_equal(a.draws.tipping, c.draws.tipping, equal_nan=True)
-    assert calls[0] == (0, 150) and calls[-1] == (150, 150)
-    assert [d for d, _ in calls] == sorted(d for d, _ in calls)
+    assert calls[0] == (0.0, "0 of 150 bootstrap refits") and calls[-1] == (1.0, "150 of 150 bootstrap refits")
+    assert [f for f, _ in calls] == sorted(f for f, _ in calls)
 
 
 def test_result_is_well_formed() -> None:

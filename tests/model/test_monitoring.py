@@ -12,10 +12,11 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from turnback.model.demo import DEMO_PROFILE
-from turnback.model.monitoring import MAX_BYTES, MIN_YEARS, MonitoringError, MonitoringSeries, parse_monitoring
+from turnback.model.io.monitoring_csv import MAX_BYTES, MIN_YEARS, MonitoringError, parse_monitoring
+from turnback.model.record import MonitoringSeries
 
-ROOT = Path(__file__).resolve().parent.parent
-MALFORMED = Path(__file__).resolve().parent / "malformed"
+ROOT = Path(__file__).resolve().parents[2]
+MALFORMED = Path(__file__).resolve().parents[1] / "malformed"
 DEMO_CSV = ROOT / "sample_data" / "amberlin_monitoring.csv"
 
 
@@ -32,7 +33,7 @@ def test_reads_values_and_line_numbers() -> None:
     s = parse_monitoring(good_csv().encode())
     assert s.n_years == 12
     assert s.years.tolist() == list(range(1990, 2002))
-    assert s.load_kg[3] == 330.0 and s.tp_ug_l[3] == 26.0
+    assert s.load_kg_per_yr[3] == 330.0 and s.tp_ug_l[3] == 26.0
     assert s.lines.tolist() == list(range(2, 14))  # header on line 1
     assert s.secchi_m is None and s.chl_ug_l is None
 
@@ -107,7 +108,7 @@ def test_round_trip_of_any_valid_record(start: int, loads: list[float], data: st
     text = "year,load_kg,tp_ug_l\n" + "".join(rows)
     s = parse_monitoring(text.encode())
     assert s.years.tolist() == list(range(start, start + n))
-    assert s.load_kg.tolist() == loads and s.tp_ug_l.tolist() == tp  # repr round-trips floats exactly
+    assert s.load_kg_per_yr.tolist() == loads and s.tp_ug_l.tolist() == tp  # repr round-trips floats exactly
 
 
 @settings(max_examples=150, deadline=None)
@@ -220,7 +221,7 @@ def test_many_problems_are_summarised_on_one_line() -> None:
 
 def test_series_checks_its_own_shape() -> None:
     with pytest.raises(ValueError, match="one value per year"):
-        MonitoringSeries(years=np.arange(3), load_kg=np.ones(2), tp_ug_l=np.ones(3))
+        MonitoringSeries(years=np.arange(3), load_kg_per_yr=np.ones(2), tp_ug_l=np.ones(3))
 
 
 # --------------------------------------------------------------------------

@@ -14,29 +14,15 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.stats import lognorm, norm
+from turnback.model.clear_state import clear_threshold_kg, recovery_years
+from turnback.model.ensemble import compare_plan, run_scenario
 from turnback.model.equilibrium import equilibria, folds
 from turnback.model.params import LakeParameters
-from turnback.model.scenario import (
-    ConstantLoad,
-    Inactivation,
-    LinearCut,
-    Plan,
-    Precaution,
-    Removal,
-    RunCancelled,
-    Scenario,
-    ScenarioLake,
-    StepLoad,
-    TableLoad,
-    _varied,
-    clear_threshold_kg,
-    compare_plan,
-    flip_probability,
-    lognormal_sigma,
-    precautionary_load,
-    recovery_years,
-    run_scenario,
-)
+from turnback.model.plan import Plan, Precaution, Scenario, ScenarioLake
+from turnback.model.precaution import flip_probability, precautionary_load
+from turnback.model.progress import RunCancelled
+from turnback.model.schedules import ConstantLoad, Inactivation, LinearCut, Removal, StepLoad, TableLoad
+from turnback.model.variability import lognormal_sigma, varied
 
 # The lake of the PLAN.json example: b = s m / r = 2/3, q = 6 (hysteretic).
 PARAMS = LakeParameters(loss_rate=0.8, recycling_max=30000.0, recycling_half=25000.0, recycling_exponent=6.0)
@@ -118,11 +104,11 @@ def test_lognormal_variability_is_mean_preserving() -> None:
     cv = 0.4
     assert math.sqrt(math.expm1(lognormal_sigma(cv) ** 2)) == pytest.approx(cv, rel=1e-14)
     z = np.random.default_rng(0).standard_normal((200_000, 1, 1))
-    varied, noise = _varied(np.array([1000.0]), z, cv, 0.0)
+    yearly, noise = varied(np.array([1000.0]), z, cv, 0.0)
     assert noise is None
     se = 1000.0 * cv / math.sqrt(z.shape[0])
-    assert abs(varied.mean() - 1000.0) < 4 * se
-    assert varied.std() == pytest.approx(1000.0 * cv, rel=0.02)
+    assert abs(yearly.mean() - 1000.0) < 4 * se
+    assert yearly.std() == pytest.approx(1000.0 * cv, rel=0.02)
 
 
 def _transfer_operator_flip(load: float, n_years: int, cv: float, sd: float, cells: int = 1500) -> tuple[float, float]:

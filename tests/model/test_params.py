@@ -5,7 +5,8 @@ from __future__ import annotations
 import math
 
 import pytest
-from turnback.model.params import DimensionlessLake, LakeParameters, LakeProfile, load_profile_file
+from turnback.model.io.lake_file import load_profile_file
+from turnback.model.params import DimensionlessLake, LakeParameters, LakeProfile
 
 GOOD = {"loss_rate": 0.5, "recycling_max": 1800.0, "recycling_half": 2500.0, "recycling_exponent": 4.0}
 
@@ -48,12 +49,12 @@ def test_dimensionless_round_trip() -> None:
 
 def test_profile_unit_conversions() -> None:
     # 1 kg in 1e6 m³ = 1e9 µg / 1e9 L = 1 µg/L; 1 kg/yr over 1 km² = 1 mg/m²/yr (common practice, no source).
-    prof = LakeProfile(name="Test", area_km2=1.0, volume_m3=1.0e6, load_kg_yr=10.0)
+    prof = LakeProfile(name="Test", area_km2=1.0, volume_m3=1.0e6, load_kg_per_yr=10.0)
     assert prof.concentration(1.0) == pytest.approx(1.0)
     assert prof.mass(prof.concentration(1234.5)) == pytest.approx(1234.5)
     assert prof.areal_load(1.0) == pytest.approx(1.0)
     assert prof.load_from_areal(prof.areal_load(77.0)) == pytest.approx(77.0)
-    deep = LakeProfile.from_depth("Deep", area_km2=2.0, mean_depth_m=5.0, load_kg_yr=0.0)
+    deep = LakeProfile.from_depth("Deep", area_km2=2.0, mean_depth_m=5.0, load_kg_per_yr=0.0)
     assert deep.volume_m3 == pytest.approx(1.0e7)
     assert deep.mean_depth_m == pytest.approx(5.0)
     assert LakeProfile.from_json(deep.to_json()) == deep
@@ -67,7 +68,7 @@ def test_profile_unit_conversions() -> None:
         ({"name": "x", "area_km2": 1, "volume_m3": 1, "load_kg_yr": -5}, "load_kg_yr"),
         ({"name": "x", "area_km2": 1, "load_kg_yr": 1}, "volume_m3 or mean_depth_m"),
         ({"name": "x", "area_km2": 1, "volume_m3": 1, "mean_depth_m": 1, "load_kg_yr": 1}, "not both"),
-        ({"name": "x", "area_km2": 1, "volume_m3": 1, "load_kg_yr": 1, "colour": 3}, "unknown"),
+        ({"name": "x", "area_km2": 1, "volume_m3": 1, "load_kg_yr": 1, "colour": 3}, "colour is not a known field"),
     ],
 )
 def test_profile_rejects_bad_fields(data: dict, fragment: str) -> None:
