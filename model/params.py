@@ -35,6 +35,14 @@ from .validation import FieldError, known_keys, mapping, number, text
 __all__ = ["DimensionlessLake", "LakeParameters", "LakeProfile", "recycling_fraction"]
 
 
+#: Largest value of any parameter accepted (in kg and years).
+MAX_VALUE = 1.0e15
+#: Steepest recycling curve accepted; beyond it the folds of the closed form lose precision.
+MAX_EXPONENT = 100.0
+#: Range of the dimensionless ``b = s m / r`` the equilibrium engine resolves.
+B_MIN, B_MAX = 1.0e-10, 1.0e10
+
+
 def _check_positive(name: str, value: object, unit: str) -> float:
     """``value`` as a finite float greater than 0, or :class:`FieldError` naming the field."""
     return number(value, (name,), lo=0.0, lo_open=True, unit=unit)
@@ -58,9 +66,14 @@ class LakeParameters:
 
     Raises
     ------
-    ValueError
-        When any value is not a finite number greater than zero; the message
-        names the field and the allowed range.
+    FieldError
+        When any value is not a finite number greater than zero, or lies
+        beyond what the equilibrium engine resolves: each value at most
+        :data:`MAX_VALUE`, ``q`` at most :data:`MAX_EXPONENT`, and the
+        dimensionless ``b = s m / r`` within ``[B_MIN, B_MAX]`` (outside it
+        the recycling term is either negligible or so large that the folds
+        lie beyond double precision).  The message names the field and the
+        allowed range.
     """
 
     loss_rate: float
@@ -77,8 +90,16 @@ class LakeParameters:
 
     def __post_init__(self) -> None:
         for f in fields(self):
-            value = _check_positive(f.name, getattr(self, f.name), self._UNITS[f.name])
+            hi = MAX_EXPONENT if f.name == "recycling_exponent" else MAX_VALUE
+            value = number(getattr(self, f.name), (f.name,), lo=0.0, lo_open=True, hi=hi, unit=self._UNITS[f.name])
             object.__setattr__(self, f.name, value)
+        b = self.loss_rate * self.recycling_half / self.recycling_max
+        if not B_MIN <= b <= B_MAX:
+            raise FieldError(
+                ("recycling_max",),
+                f"gives b = s m / r = {b:.3g}, beyond what the engine resolves ({B_MIN:g} to {B_MAX:g}); "
+                "check the units of r, m and s",
+            )
 
     # short names used in equations
     @property

@@ -2,14 +2,18 @@
 
 from __future__ import annotations
 
-import json
+import tomllib
 from pathlib import Path
 from typing import Any
 
 from ..params import LakeParameters, LakeProfile
 from ..validation import within
+from .files import read_bounded, read_json_file
 
-__all__ = ["load_profile_file"]
+__all__ = ["MAX_LAKE_BYTES", "load_profile_file"]
+
+#: Largest lake file read [bytes]: a lake profile is a few lines.
+MAX_LAKE_BYTES = 1_000_000
 
 
 def load_profile_file(path: str | Path) -> tuple[LakeProfile, LakeParameters | None]:
@@ -26,29 +30,20 @@ def load_profile_file(path: str | Path) -> tuple[LakeProfile, LakeParameters | N
         malformed file.
     """
     p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except OSError as exc:
-        raise ValueError(f"cannot read lake file {str(path)!r}: {exc.strerror or exc}") from None
-    if len(raw) > 1_000_000:
-        raise ValueError(f"lake file {str(path)!r} is larger than 1 MB; a lake profile is a few lines")
-    try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError:
-        raise ValueError(f"lake file {str(path)!r} is not UTF-8 text") from None
-    data: Any
     if p.suffix.lower() == ".toml":
-        import tomllib
-
+        raw = read_bounded(path, MAX_LAKE_BYTES, "lake file")
         try:
-            data = tomllib.loads(text)
+            text = raw.decode("utf-8-sig")
+        except UnicodeDecodeError:
+            raise ValueError(f"lake file {str(path)!r} is not UTF-8 text; save it as UTF-8") from None
+        try:
+            data: Any = tomllib.loads(text)
         except tomllib.TOMLDecodeError as exc:
             raise ValueError(f"lake file {str(path)!r} is not valid TOML: {exc}") from None
+        except RecursionError:
+            raise ValueError(f"lake file {str(path)!r} is nested too deeply to be a lake file") from None
     else:
-        try:
-            data = json.loads(text)
-        except json.JSONDecodeError as exc:
-            raise ValueError(f"lake file {str(path)!r} is not valid JSON: {exc.msg} at line {exc.lineno}") from None
+        data = read_json_file(path, MAX_LAKE_BYTES, "lake file")
     if not isinstance(data, dict):
         raise ValueError(f"lake file {str(path)!r} must hold an object of lake profile fields")
     data = dict(data)

@@ -43,12 +43,12 @@ import io
 import math
 import os
 import re
-from pathlib import Path
 
 import numpy as np
 from numpy.typing import NDArray
 
 from ..record import MonitoringSeries
+from .files import FileTooLarge, read_bounded
 
 __all__ = [
     "MAX_BYTES",
@@ -124,19 +124,12 @@ def _read_source(source: bytes | bytearray | memoryview | str | os.PathLike[str]
             raise MonitoringError(_too_large(len(raw)))
         return raw
     if isinstance(source, str | os.PathLike):
-        path = Path(source)
         try:
-            size = path.stat().st_size
-            if size > MAX_BYTES:
-                raise MonitoringError(_too_large(size))
-            with path.open("rb") as fh:
-                raw = fh.read(MAX_BYTES + 1)
-        except OSError as exc:
-            reason = exc.strerror or type(exc).__name__
-            raise MonitoringError(f"cannot read monitoring file {str(source)!r}: {reason}") from None
-        if len(raw) > MAX_BYTES:
-            raise MonitoringError(_too_large(len(raw)))
-        return raw
+            return read_bounded(source, MAX_BYTES, "monitoring file")
+        except FileTooLarge as exc:
+            raise MonitoringError(_too_large(exc.size)) from None
+        except ValueError as exc:
+            raise MonitoringError(str(exc)) from None
     raise TypeError(f"parse_monitoring takes bytes or a file path; got {type(source).__name__}")
 
 

@@ -199,7 +199,7 @@ def test_file_over_the_size_limit(tmp_path: Path) -> None:
 def test_missing_file_and_folder(tmp_path: Path) -> None:
     with pytest.raises(MonitoringError, match="cannot read monitoring file"):
         parse_monitoring(tmp_path / "absent.csv")
-    with pytest.raises(MonitoringError, match="cannot read monitoring file"):
+    with pytest.raises(MonitoringError, match="is a folder; give a regular file"):
         parse_monitoring(tmp_path)
 
 
