@@ -1,17 +1,23 @@
 """The ``turnback`` command line.
 
-Each subcommand lives in its own module under :mod:`turnback.app.commands` and
-provides ``add_parser(subparsers)`` and ``run(args) -> int``.  Bad input
+Each subcommand lives in its own module under :mod:`turnback.app.commands`
+and provides ``add_parser(subparsers)`` and ``run(args) -> int``.  Bad input
 exits with status 2 and a one-line message that says what to fix; no
-traceback is ever shown.
+traceback is ever shown, numerical warnings never reach the user, and a
+closed output pipe (``turnback analyze --demo | head -1``) ends quietly.
 """
 
 from __future__ import annotations
 
 import argparse
+import os
+import re
 import sys
+import warnings
 from collections.abc import Sequence
 from typing import NoReturn
+
+import numpy as np
 
 from .commands import COMMANDS
 
@@ -20,8 +26,17 @@ class UsageError(Exception):
     """Bad input from the command line: exit 2 with this message."""
 
 
+# Option values that are negative numbers, in any notation (-5, -0.5, -1e6, -.5E-3): argparse's own
+# pattern misses exponents and would read "-1e6" as an unknown option.
+_NEGATIVE_NUMBER = re.compile(r"^-(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$")
+
+
 class _Parser(argparse.ArgumentParser):
-    """ArgumentParser that reports errors on one line and exits with status 2."""
+    """ArgumentParser that reports errors on one line, exits with status 2 and reads -1e6 as a number."""
+
+    def __init__(self, *args: object, **kwargs: object) -> None:
+        super().__init__(*args, **kwargs)  # type: ignore[arg-type]
+        self._negative_number_matcher = _NEGATIVE_NUMBER
 
     def error(self, message: str) -> NoReturn:
         self.exit(2, f"{self.prog}: error: {message} (see {self.prog} --help)\n")
@@ -38,6 +53,19 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _one_line(text: object) -> str:
+    return " ".join(str(text).split())
+
+
+def _quiet_stdout() -> None:
+    """After a broken pipe: point stdout at /dev/null so the interpreter's final flush stays silent."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):
+        pass
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
@@ -45,14 +73,21 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return 2
     try:
-        return int(args.run(args))
+        with warnings.catch_warnings(), np.errstate(all="ignore"):
+            warnings.simplefilter("ignore")
+            code = int(args.run(args))
+        sys.stdout.flush()
+        return code
+    except BrokenPipeError:
+        _quiet_stdout()
+        return 0
     except (UsageError, ValueError) as exc:
-        print(f"turnback {args.command}: error: {exc}", file=sys.stderr)
+        print(f"turnback {args.command}: error: {_one_line(exc)}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         return 130
     except Exception as exc:  # never show a traceback to a user
-        print(f"turnback {args.command}: internal error: {type(exc).__name__}: {exc}", file=sys.stderr)
+        print(f"turnback {args.command}: internal error: {type(exc).__name__}: {_one_line(exc)}", file=sys.stderr)
         return 1
 
 

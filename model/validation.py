@@ -235,5 +235,7 @@ def number_text(
     if s == "":
         raise FieldError(path, "is empty: enter a number")
     if not _NUMBER.fullmatch(s):
-        raise FieldError(path, f"must be a plain number such as 0.5 or 1200; got {_shown(s)}")
+        raise FieldError(
+            path, f"is not a number: write a plain number such as 0.5 or 1200 (no separators or words); got {_shown(s)}"
+        )
     return number(float(s), path, lo=lo, hi=hi, lo_open=lo_open, hi_open=hi_open, unit=unit)

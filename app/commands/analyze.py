@@ -3,16 +3,18 @@
 from __future__ import annotations
 
 import argparse
-import json
 import math
 from typing import Any
 
 from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from turnback.model.equilibrium import LakeAnalysis, analyze, removal_needed, safety_margin
 from turnback.model.io.lake_file import load_profile_file
-from turnback.model.params import LakeParameters, LakeProfile
+from turnback.model.params import MAX_VALUE, LakeParameters, LakeProfile
 
-from ._shared import number
+from ._shared import number, print_json
+
+#: Largest load the command analyses [mass/yr], as large as any parameter (turnback.model.params.MAX_VALUE).
+MAX_LOAD = MAX_VALUE
 
 _PARAM_FLAGS = {
     "loss_rate": ("--loss-rate", "S", "loss rate s [1/yr] (burial plus outflow)"),
@@ -141,22 +143,22 @@ def _table(res: LakeAnalysis, profile: LakeProfile | None) -> str:
 def run(args: argparse.Namespace) -> int:
     params, profile = _resolve(args)
     load = args.load
-    if load is not None and not math.isfinite(load):
-        raise ValueError(f"--load must be a finite number; got {load:g}")
+    if load is not None and not abs(load) <= MAX_LOAD:
+        raise ValueError(f"--load must be between {-MAX_LOAD:g} and {MAX_LOAD:g} [mass/yr]; got {load:g}")
     if args.load is None and (args.demo or (args.lake and profile is not None)) and profile is not None:
         load = profile.load_kg_per_yr
     load_range = tuple(args.load_range) if args.load_range else None
     if load_range is not None:
         lo, hi = load_range
-        if not (math.isfinite(lo) and math.isfinite(hi)):
-            raise ValueError("--load-range needs two finite numbers")
+        if not (abs(lo) <= MAX_LOAD and abs(hi) <= MAX_LOAD):
+            raise ValueError(f"--load-range needs two numbers between {-MAX_LOAD:g} and {MAX_LOAD:g} [mass/yr]")
         if lo >= hi:
             raise ValueError(f"--load-range is reversed or empty ({lo:g} to {hi:g}); give the lower load first")
     if not 10 <= args.points <= 1_000_000:
         raise ValueError("--points must be between 10 and 1000000")
     res = analyze(params, load=load, load_range=load_range, n_points=args.points)  # type: ignore[arg-type]
     if args.json:
-        print(json.dumps(_payload(res, profile, load_range is not None)))
+        print_json(_payload(res, profile, load_range is not None))
     else:
         print(_table(res, profile))
     return 0

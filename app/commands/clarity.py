@@ -3,13 +3,12 @@
 from __future__ import annotations
 
 import argparse
-import json
 import math
 from typing import Any
 
 from turnback.model.clarity import clarity
 
-from ._shared import number
+from ._shared import number, print_json
 
 
 def _fmt(value: float) -> str:
@@ -46,7 +45,7 @@ def run(args: argparse.Namespace) -> int:
     except ValueError as exc:
         raise ValueError(str(exc).replace("tp_ug_l", "--tp-ug-l")) from None
     if args.json:
-        print(json.dumps(est.to_dict()))
+        print_json(est.to_dict())
         return 0
     lines = [
         f"Total phosphorus {est.tp_ug_l:g} µg/L: Carlson TSI(TP) {est.tsi_tp:.1f}",

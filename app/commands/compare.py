@@ -10,13 +10,14 @@ are in :mod:`turnback.model.plan`.
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 from typing import Any
 
 from turnback.model.ensemble import compare_plan
 from turnback.model.io.plan_file import load_plan_file
 from turnback.model.outcomes import Comparison
+
+from ._shared import print_json
 
 
 def add_parser(sub: Any) -> None:
@@ -78,7 +79,7 @@ def run(args: argparse.Namespace) -> int:
         print("\r" + " " * 70 + "\r", end="", file=sys.stderr, flush=True)
     if args.json:
         rows = [r.details() if args.full else r.summary() for r in comp.results]
-        print(json.dumps({"scenarios": rows}, allow_nan=False))
+        print_json({"scenarios": rows})
     else:
         print(_table(comp))
     return 0

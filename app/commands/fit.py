@@ -20,7 +20,6 @@ value the data do not give.  Progress goes to stderr, and only without
 from __future__ import annotations
 
 import argparse
-import json
 import math
 import sys
 from pathlib import Path
@@ -32,7 +31,7 @@ from turnback.model.io.monitoring_csv import parse_monitoring
 from turnback.model.params import LakeProfile
 from turnback.model.record import MonitoringSeries
 
-from ._shared import number
+from ._shared import number, print_json
 
 MAX_REPLICATES = 100_000
 
@@ -165,7 +164,7 @@ def run(args: argparse.Namespace) -> int:
         series, volume, replicates=args.replicates, rng=args.seed, scheme=args.scheme, progress=progress
     )
     if args.json:
-        print(json.dumps(res.to_dict(), allow_nan=False, ensure_ascii=False))
+        print_json(res.to_dict())
     else:
         print(_table(res, series, Path(args.file).name, profile, args.seed))
     return 0

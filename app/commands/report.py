@@ -4,7 +4,9 @@
 HTML embeds plotly.js (opens without internet); ``--csv`` writes the
 trajectories and the outcome table as CSV; ``--png`` writes the figures as
 PNG through kaleido (needs Chrome or Chromium).  The HTML is written first
-and atomically, so a failure later never leaves a half-written report.
+and atomically, so a failure later never leaves a half-written report; a
+link, folder or other special file at ``-o`` is never replaced (the rule of
+:mod:`turnback.model.io.files`).
 """
 
 from __future__ import annotations
@@ -13,8 +15,9 @@ import argparse
 from pathlib import Path
 from typing import Any
 
-from turnback.app.report import build_report_html, report_figures, write_csv, write_pngs, write_text_atomic
+from turnback.app.report import build_report_html, report_figures, write_csv, write_pngs
 from turnback.model.ensemble import compare_plan
+from turnback.model.io.files import check_target, write_atomic
 from turnback.model.io.plan_file import load_plan_file
 
 
@@ -50,14 +53,11 @@ def run(args: argparse.Namespace) -> int:
     plan_path = Path(args.plan)
     if _same_file(out, plan_path) or out.resolve() == plan_path.resolve():
         raise ValueError("-o must not be the plan file itself; give another file name for the report")
-    if out.is_dir():
-        raise ValueError(f"-o {args.output!r} is a folder; give a file name such as report.html")
-    if not out.parent.is_dir():
-        raise ValueError(f"-o: folder {str(out.parent)!r} does not exist; create it or choose another path")
+    check_target(out, "the report")  # before the work: a link, special file or unwritable folder is refused
     plan = load_plan_file(plan_path)
     comp = compare_plan(plan)
     figures = report_figures(comp)
-    write_text_atomic(out, build_report_html(comp, source=plan_path.name, figures=figures))
+    write_atomic(out, build_report_html(comp, source=plan_path.name, figures=figures), "the report")
     print(f"wrote {args.output}")
     if args.csv:
         for p in write_csv(comp, args.csv):

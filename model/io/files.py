@@ -179,8 +179,14 @@ def read_json_file(path: str | os.PathLike[str], max_bytes: int, what: str) -> A
     return loads_strict(text, f"{what} {str(path)!r}")
 
 
-def write_atomic(path: str | os.PathLike[str], data: bytes | str, what: str = "file") -> Path:
-    """Write ``data`` to ``path`` atomically under the rule of the module docstring; ValueError when refused."""
+def check_target(path: str | os.PathLike[str], what: str = "file") -> os.stat_result | None:
+    """Check, before any work, that ``path`` may be written under the rule; its current status or None.
+
+    Raises
+    ------
+    ValueError
+        For a link or special file at the target, a missing folder, or a folder that cannot be written.
+    """
     target = Path(path)
     shown = str(path)
     try:
@@ -198,6 +204,19 @@ def write_atomic(path: str | os.PathLike[str], data: bytes | str, what: str = "f
     folder = target.parent
     if not folder.is_dir():
         raise ValueError(f"cannot write {what}: folder {str(folder)!r} does not exist; create it or choose another")
+    if not os.access(folder, os.W_OK | os.X_OK):
+        raise ValueError(
+            f"cannot write {what}: folder {str(folder)!r} is not writable; choose a folder you can write to"
+        )
+    return st
+
+
+def write_atomic(path: str | os.PathLike[str], data: bytes | str, what: str = "file") -> Path:
+    """Write ``data`` to ``path`` atomically under the rule of the module docstring; ValueError when refused."""
+    target = Path(path)
+    shown = str(path)
+    st = check_target(target, what)
+    folder = target.parent
     payload = data.encode("utf-8") if isinstance(data, str) else data
     try:
         fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=folder)

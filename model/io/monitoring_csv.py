@@ -186,6 +186,9 @@ def _fail(message: str) -> str:
 # --------------------------------------------------------------------------
 _DECIMAL_COMMA = re.compile(r"^[-+]?\d+,\d+$")
 _NUMBER_WITH_UNIT = re.compile(r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*[^\d\s.,+-].*$")
+_PLAIN_NUMBER = re.compile(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", re.ASCII)
+#: Largest plausible value of each column (far beyond any lake); larger is a unit or typing slip.
+_UPPER = {"load_kg": 1.0e12, "tp_ug_l": 1.0e6, "secchi_m": 1.0e4, "chl_ug_l": 1.0e6}
 
 
 def _cell_number(text: str, line: int, column: str) -> float | str:
@@ -209,6 +212,11 @@ def _cell_number(text: str, line: int, column: str) -> float | str:
         return f"{where}: {cell!r} is not a number; write a plain number such as 41.5 (decimal point, no units)"
     if not math.isfinite(value):
         return f"{where}: {cell!r} is not a finite number; give the measured value for that year"
+    if not _PLAIN_NUMBER.fullmatch(cell):
+        return (
+            f"{where}: {cell!r} is not a plain number; write digits 0-9 with a decimal point and no separators, "
+            "such as 1200 or 41.5"
+        )
     return value
 
 
@@ -420,6 +428,8 @@ def _cell_range(col: str, v: float, cell: str, line: int) -> str | None:
         )
     if col == "secchi_m" and v == 0.0:
         return f"{where}: a Secchi depth of 0 m is not possible; give the measured depth or leave the cell empty"
+    if col in _UPPER and v > _UPPER[col]:
+        return f"{where}: {cell!r} is larger than any lake value ({_UPPER[col]:g}); check the unit and the digits"
     return None
 
 

@@ -64,9 +64,9 @@ def test_readable_output_includes_who_caution_when_relevant() -> None:
     [
         ("-1", "greater than 0"),
         ("0", "greater than 0"),
-        ("nan", "greater than 0"),
-        ("inf", "greater than 0"),
-        ("-inf", "greater than 0"),
+        ("nan", "is not a number"),
+        ("inf", "is not a number"),
+        ("-inf", "is not a number"),
         ("abc", "not a number"),
         ("1e9", "between"),
     ],

@@ -159,7 +159,7 @@ def test_bad_options_through_the_command(tmp_path: Path) -> None:
     cases = {
         "give the lake volume once": ["fit", demo, "--volume-m3", "1e6", "--lake", str(lake)],
         "--volume-m3 must be a finite number greater than 0": ["fit", demo, "--volume-m3", "-5"],
-        "--volume-m3 must be a finite number greater than 0 [m³]; got nan": ["fit", demo, "--volume-m3", "nan"],
+        "argument --volume-m3: 'nan' is not a number": ["fit", demo, "--volume-m3", "nan"],
         "--replicates must be between 100 and 100000": ["fit", demo, "--volume-m3", "1e6", "--replicates", "5"],
         "--seed must be a whole number >= 0": ["fit", demo, "--volume-m3", "1e6", "--seed", "-1"],
         "invalid int value": ["fit", demo, "--volume-m3", "1e6", "--replicates", "many"],
