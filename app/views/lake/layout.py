@@ -86,97 +86,79 @@ def settings_panel(params: LakeParameters, profile: LakeProfile) -> html.Details
     )
 
 
+def _readout_card() -> html.Div:
+    return html.Div(
+        [html.H2("What the lake is doing"), html.Div(id=ids.READOUT, className="readout")], className="card"
+    )
+
+
+def _removal_card() -> html.Div:
+    return html.Div(
+        [
+            html.H2("Take phosphorus out of the lake"),
+            html.Div(id=ids.REMOVAL_NEEDED, className="readout-row"),
+            html.Div(
+                [
+                    html.Label("P to remove [kg]", htmlFor=ids.REMOVAL_INPUT),
+                    dcc.Input(id=ids.REMOVAL_INPUT, type="number", min=0, value=0, className="removal-input"),
+                    html.Button("Remove it now", id=ids.REMOVAL_BUTTON, n_clicks=0),
+                ],
+                className="control-row",
+            ),
+            html.Div(id=ids.REMOVAL_MESSAGE, className="field-message", role="alert"),
+            html.P(TREATMENT_CAUTION, className="treatment-caution"),
+        ],
+        className="card",
+    )
+
+
+def _load_card(profile: LakeProfile) -> html.Div:
+    return html.Div(
+        [
+            html.H2("Phosphorus load"),
+            html.P("Drag, use the arrow keys, or type a value (kg P per year).", className="hint"),
+            dcc.Slider(
+                id=ids.LOAD_SLIDER,
+                min=0,
+                max=1,
+                value=profile.load_kg_yr,
+                updatemode="mouseup",
+                className="load-slider",
+            ),
+            html.Div(
+                [
+                    html.Label("Years per change", htmlFor=ids.YEARS_INPUT),
+                    dcc.Input(
+                        id=ids.YEARS_INPUT,
+                        type="number",
+                        min=1,
+                        max=200,
+                        step=1,
+                        value=5,
+                        debounce=True,
+                        className="years-input",
+                    ),
+                    html.Button("Let the years pass", id=ids.WAIT_BUTTON, n_clicks=0),
+                    html.Button("Start the history again", id=ids.RESET_BUTTON, n_clicks=0, className="secondary"),
+                ],
+                className="control-row",
+            ),
+            html.Div(id=ids.YEARS_MESSAGE, className="field-message", role="alert"),
+        ],
+        className="card",
+    )
+
+
 def build_view(params: LakeParameters, profile: LakeProfile) -> list[Any]:
     return [
         html.Main(
             [
+                html.Section([_readout_card(), _removal_card()], className="controls"),
                 html.Section(
                     [
-                        html.Div(
-                            [
-                                html.H2("What the lake is doing"),
-                                html.Div(id=ids.READOUT, className="readout"),
-                            ],
-                            className="card",
-                        ),
-                        html.Div(
-                            [
-                                html.H2("Take phosphorus out of the lake"),
-                                html.Div(id=ids.REMOVAL_NEEDED, className="readout-row"),
-                                html.Div(
-                                    [
-                                        html.Label("P to remove [kg]", htmlFor=ids.REMOVAL_INPUT),
-                                        dcc.Input(
-                                            id=ids.REMOVAL_INPUT,
-                                            type="number",
-                                            min=0,
-                                            value=0,
-                                            className="removal-input",
-                                        ),
-                                        html.Button("Remove it now", id=ids.REMOVAL_BUTTON, n_clicks=0),
-                                    ],
-                                    className="control-row",
-                                ),
-                                html.Div(id=ids.REMOVAL_MESSAGE, className="field-message", role="alert"),
-                                html.P(TREATMENT_CAUTION, className="treatment-caution"),
-                            ],
-                            className="card",
-                        ),
-                    ],
-                    className="controls",
-                ),
-                html.Section(
-                    [
-                        html.Div(
-                            [
-                                html.H2("Phosphorus load"),
-                                html.P(
-                                    "Drag, use the arrow keys, or type a value (kg P per year).",
-                                    className="hint",
-                                ),
-                                dcc.Slider(
-                                    id=ids.LOAD_SLIDER,
-                                    min=0,
-                                    max=1,
-                                    value=profile.load_kg_yr,
-                                    updatemode="mouseup",
-                                    className="load-slider",
-                                ),
-                                html.Div(
-                                    [
-                                        html.Label("Years per change", htmlFor=ids.YEARS_INPUT),
-                                        dcc.Input(
-                                            id=ids.YEARS_INPUT,
-                                            type="number",
-                                            min=1,
-                                            max=200,
-                                            step=1,
-                                            value=5,
-                                            debounce=True,
-                                            className="years-input",
-                                        ),
-                                        html.Button("Let the years pass", id=ids.WAIT_BUTTON, n_clicks=0),
-                                        html.Button(
-                                            "Start the history again",
-                                            id=ids.RESET_BUTTON,
-                                            n_clicks=0,
-                                            className="secondary",
-                                        ),
-                                    ],
-                                    className="control-row",
-                                ),
-                                html.Div(id=ids.YEARS_MESSAGE, className="field-message", role="alert"),
-                            ],
-                            className="card",
-                        ),
-                        dcc.Graph(
-                            id=ids.EQUILIBRIUM_GRAPH,
-                            config=graph_config("turnback-equilibria"),
-                        ),
-                        dcc.Graph(
-                            id=ids.TIME_GRAPH,
-                            config=graph_config("turnback-history"),
-                        ),
+                        _load_card(profile),
+                        dcc.Graph(id=ids.EQUILIBRIUM_GRAPH, config=graph_config("turnback-equilibria")),
+                        dcc.Graph(id=ids.TIME_GRAPH, config=graph_config("turnback-history")),
                     ],
                     className="figures",
                 ),
