@@ -88,6 +88,9 @@ RECORD_CANCEL_BUTTON = "record-cancel"
 RECORD_PROGRESS = "record-progress"
 RECORD_PROGRESS_TEXT = "record-progress-text"
 RECORD_FIT_RESULT = "record-fit-result"
+FIT_TIPPING = "fit-tipping"  # rows of the fit summary
+FIT_RECOVERY = "fit-recovery"
+FIT_REGIME = "fit-regime"
 RECORD_GRAPH = "record-graph"
 RECORD_CLARITY_GRAPH = "record-clarity-graph"
 WARNING_GRAPH = "warning-graph"
@@ -172,6 +175,7 @@ PLAN_PREC_PERCENT = "plan-prec-percent"
 PLAN_PREC_BUTTON = "plan-prec-find"
 PLAN_PREC_PROGRESS_TEXT = "plan-prec-progress-text"
 PLAN_PREC_RESULT = "plan-prec-result"
+PLAN_PREC_ANSWER = "plan-prec-answer"  # the answer inside PLAN_PREC_RESULT
 PLAN_PREC_MESSAGE = "plan-prec-message"
 
 # save and find again

@@ -24,8 +24,9 @@ _PART = re.compile(r"([A-Za-z_]\w*)|\[(\d+)\]")
 def field_of_error(exc: BaseException | str) -> tuple[tuple[PathPart, ...], str]:
     """The field a model error names, as a path (``("scenarios", 1, "load", "percent")``), and the reason.
 
-    Read from the start of the message, up to the first space; a message
-    that does not start with a field name gives ``((), message)``.
+    Read from the start of the message, up to the first space (so any first
+    word that could be a name reads as one); a message that starts
+    otherwise gives ``((), message)``.
     """
     text = str(exc)
     m = _PATH.match(text)

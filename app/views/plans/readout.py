@@ -9,6 +9,7 @@ from dash import html
 from turnback.model.equilibrium import folds
 from turnback.model.scenario import ScenarioLake
 
+from ... import ids
 from ...stores import lake_from_store, same_lake, state_now
 
 
@@ -88,7 +89,7 @@ def precaution_words(data: Mapping[str, Any], load_now: float | None = None) -> 
         if r["probability"] is not None:
             body += f"; chance of flipping there {100 * r['probability']:.1f}% of {r['members']:,} members"
         body += "."
-    out: list[Any] = [html.Div(body, className="readout-row", id="plan-prec-answer")]
+    out: list[Any] = [html.Div(body, className="readout-row", id=ids.PLAN_PREC_ANSWER)]
     if load_now is not None and load is not None:
         if load_now > load:
             out.append(

@@ -10,6 +10,7 @@ from dash import html
 from turnback.model.fit import FitResult
 from turnback.model.params import LakeProfile
 
+from ... import ids
 from ...stores import Band, FitStore, LakeStore, lake_from_store, lake_key, lake_to_store
 
 CLOUD_MAX = 400  # bootstrap lakes kept for the regime map
@@ -73,9 +74,9 @@ def fit_summary(fit: dict[str, Any]) -> html.Div:
                 className="readout-row",
             ),
             html.Table(rows),
-            html.Div(_band_text("Tipping load", fit["tipping"]), className="readout-row", id="fit-tipping"),
-            html.Div(_band_text("Recovery load", fit["recovery"]), className="readout-row", id="fit-recovery"),
-            html.Div(f"Regime: {prob_text}.", className="readout-row", id="fit-regime"),
+            html.Div(_band_text("Tipping load", fit["tipping"]), className="readout-row", id=ids.FIT_TIPPING),
+            html.Div(_band_text("Recovery load", fit["recovery"]), className="readout-row", id=ids.FIT_RECOVERY),
+            html.Div(f"Regime: {prob_text}.", className="readout-row", id=ids.FIT_REGIME),
             *[html.Div(w, className="readout-row readout-warning") for w in fit["warnings"]],
             html.Div("The fitted lake is now the current lake: see 'The lake now'.", className="hint"),
         ]
