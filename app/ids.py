@@ -57,8 +57,13 @@ VIEW_LAKE = "view-lake"
 VIEW_RECORD = "view-record"
 VIEW_PLANS = "view-plans"
 VIEW_MAP = "view-map"
-#: tab value -> view container id
-VIEWS = {"lake": VIEW_LAKE, "record": VIEW_RECORD, "plans": VIEW_PLANS, "map": VIEW_MAP}
+#: tab values (the value of ``VIEW_TABS``)
+TAB_LAKE = "lake"
+TAB_RECORD = "record"
+TAB_PLANS = "plans"
+TAB_MAP = "map"
+#: tab value -> view container id, in tab order
+VIEWS = {TAB_LAKE: VIEW_LAKE, TAB_RECORD: VIEW_RECORD, TAB_PLANS: VIEW_PLANS, TAB_MAP: VIEW_MAP}
 
 # clarity words in the readout
 CLARITY_WORDS = "clarity-words"
@@ -83,13 +88,15 @@ RECORD_CANCEL_BUTTON = "record-cancel"
 RECORD_PROGRESS = "record-progress"
 RECORD_PROGRESS_TEXT = "record-progress-text"
 RECORD_FIT_RESULT = "record-fit-result"
-RECORD_USE_BUTTON = "record-use-fit"
+FIT_TIPPING = "fit-tipping"  # rows of the fit summary
+FIT_RECOVERY = "fit-recovery"
+FIT_REGIME = "fit-regime"
 RECORD_GRAPH = "record-graph"
 RECORD_CLARITY_GRAPH = "record-clarity-graph"
 WARNING_GRAPH = "warning-graph"
 WARNING_WORDS = "warning-words"
 
-# ---- plans view: ids below this line belong to the plans view modules ----
+# ---- plans view (app/views/plans) ----
 
 # per-session stores of the plans view
 PLAN_STORE = "plan-store"  # the plan's scenarios, each as Scenario.to_dict(); storage "session"
@@ -168,6 +175,7 @@ PLAN_PREC_PERCENT = "plan-prec-percent"
 PLAN_PREC_BUTTON = "plan-prec-find"
 PLAN_PREC_PROGRESS_TEXT = "plan-prec-progress-text"
 PLAN_PREC_RESULT = "plan-prec-result"
+PLAN_PREC_ANSWER = "plan-prec-answer"  # the answer inside PLAN_PREC_RESULT
 PLAN_PREC_MESSAGE = "plan-prec-message"
 
 # save and find again

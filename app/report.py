@@ -1,7 +1,7 @@
 """Figures, outcome table and a standalone HTML report of a scenario comparison.
 
-The figure builders are pure functions (results in, :class:`plotly.graph_objects.Figure`
-out) so the dashboard can reuse them.  The HTML report embeds plotly.js
+The figures are the plans view's (:mod:`app.views.plans.figures`: results in,
+:class:`plotly.graph_objects.Figure` out).  The HTML report embeds plotly.js
 inline (no internet needed to open it, no MathJax), states the assumptions
 and cautions, the date and the parameters, and carries a sortable outcome
 table.
@@ -24,20 +24,16 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
-import numpy as np
 import plotly.graph_objects as go
-from plotly.colors import qualitative
-from turnback.model.outcomes import Comparison, ScenarioResult
+from turnback.model.outcomes import Comparison
+
+from .views.plans.figures import clear_probability_figure, load_figure, recovery_figure, trajectory_figure
 
 __all__ = [
     "CAUTIONS",
     "build_report_html",
-    "clear_probability_figure",
-    "load_figure",
     "outcome_rows",
-    "recovery_figure",
     "report_figures",
-    "trajectory_figure",
     "write_csv",
     "write_pngs",
     "write_text_atomic",
@@ -52,158 +48,6 @@ CAUTIONS: tuple[str, ...] = (
     "Probabilities come from a finite ensemble and carry Monte-Carlo error; the lake's parameters carry "
     "further uncertainty that these numbers do not include.",
 )
-
-_PALETTE = qualitative.Plotly
-
-
-def _color(i: int) -> str:
-    return _PALETTE[i % len(_PALETTE)]
-
-
-def _rgba(hex_color: str, alpha: float) -> str:
-    h = hex_color.lstrip("#")
-    r, g, b = (int(h[k : k + 2], 16) for k in (0, 2, 4))
-    return f"rgba({r},{g},{b},{alpha})"
-
-
-def _layout(fig: go.Figure, title: str, x_title: str, y_title: str) -> go.Figure:
-    fig.update_layout(
-        title={"text": title},
-        xaxis_title=x_title,
-        yaxis_title=y_title,
-        template="plotly_white",
-        hovermode="x unified",
-        legend={"orientation": "h", "y": -0.2},
-        margin={"l": 60, "r": 20, "t": 60, "b": 60},
-        height=420,
-    )
-    return fig
-
-
-def trajectory_figure(results: Sequence[ScenarioResult], *, title: str | None = None) -> go.Figure:
-    """Median TP [µg L⁻¹] of each scenario over years 0 … T with its 5–95 % band, overlaid.
-
-    The dotted line of the same colour is the scenario's clear-state threshold.
-    """
-    fig = go.Figure()
-    for i, r in enumerate(results):
-        c = _color(i)
-        x = r.years.tolist()
-        fig.add_trace(
-            go.Scatter(
-                x=x,
-                y=r.tp_p95_ug_l.tolist(),
-                mode="lines",
-                line={"width": 0},
-                legendgroup=r.name,
-                showlegend=False,
-                hoverinfo="skip",
-                name=f"{r.name} 95%",
-            )
-        )
-        fig.add_trace(
-            go.Scatter(
-                x=x,
-                y=r.tp_p05_ug_l.tolist(),
-                mode="lines",
-                line={"width": 0},
-                fill="tonexty",
-                fillcolor=_rgba(c, 0.18),
-                legendgroup=r.name,
-                showlegend=False,
-                hoverinfo="skip",
-                name=f"{r.name} 5%",
-            )
-        )
-        fig.add_trace(
-            go.Scatter(
-                x=x,
-                y=r.tp_median_ug_l.tolist(),
-                mode="lines",
-                line={"color": c, "width": 2.5},
-                legendgroup=r.name,
-                name=r.name,
-                hovertemplate="%{y:.1f} µg/L",
-            )
-        )
-        fig.add_trace(
-            go.Scatter(
-                x=x,
-                y=r.threshold_tp_ug_l.tolist(),
-                mode="lines",
-                line={"color": c, "width": 1, "dash": "dot"},
-                legendgroup=r.name,
-                showlegend=False,
-                name=f"{r.name} clear threshold",
-                hovertemplate="threshold %{y:.1f} µg/L",
-            )
-        )
-    return _layout(
-        fig,
-        title or "Total phosphorus: median and 5–95% band (dotted: clear-state threshold)",
-        "year",
-        "TP [µg/L]",
-    )
-
-
-def clear_probability_figure(results: Sequence[ScenarioResult], *, title: str | None = None) -> go.Figure:
-    """Fraction of ensemble members in the clear state, year by year [%]."""
-    fig = go.Figure()
-    for i, r in enumerate(results):
-        fig.add_trace(
-            go.Scatter(
-                x=r.years.tolist(),
-                y=(100.0 * r.p_clear).tolist(),
-                mode="lines",
-                name=r.name,
-                line={"color": _color(i), "width": 2.5},
-                hovertemplate="%{y:.1f}%",
-            )
-        )
-    fig = _layout(fig, title or "Probability of the clear state", "year", "members clear [%]")
-    fig.update_yaxes(range=[-2, 102])
-    return fig
-
-
-def recovery_figure(results: Sequence[ScenarioResult], *, title: str | None = None) -> go.Figure:
-    """Distribution of recovery time: fraction of members recovered by each year [%] (cumulative)."""
-    fig = go.Figure()
-    for i, r in enumerate(results):
-        rec = r.recovery_year
-        years = r.years
-        n = max(rec.size, 1)
-        finite = rec[np.isfinite(rec)]
-        share = [100.0 * float((finite <= t).sum()) / n for t in years.tolist()]
-        fig.add_trace(
-            go.Scatter(
-                x=years.tolist(),
-                y=share,
-                mode="lines",
-                line={"color": _color(i), "width": 2.5, "shape": "hv"},
-                name=r.name,
-                hovertemplate="%{y:.1f}% recovered",
-            )
-        )
-    fig = _layout(fig, title or "Recovery time: members recovered by each year", "year", "members recovered [%]")
-    fig.update_yaxes(range=[-2, 102])
-    return fig
-
-
-def load_figure(results: Sequence[ScenarioResult], *, title: str | None = None) -> go.Figure:
-    """Scheduled external load of years 1 … T [kg yr⁻¹] (the mean of the varied load)."""
-    fig = go.Figure()
-    for i, r in enumerate(results):
-        fig.add_trace(
-            go.Scatter(
-                x=r.years[1:].tolist(),
-                y=r.load_kg_per_yr.tolist(),
-                mode="lines",
-                name=r.name,
-                line={"color": _color(i), "width": 2.5, "shape": "hv"},
-                hovertemplate="%{y:,.0f} kg/yr",
-            )
-        )
-    return _layout(fig, title or "Scheduled external load", "year", "load [kg/yr]")
 
 
 def report_figures(comparison: Comparison) -> dict[str, go.Figure]:

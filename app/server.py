@@ -2,26 +2,19 @@
 
 from __future__ import annotations
 
-import os
-import tempfile
 from pathlib import Path
 
-import diskcache
-from dash import Dash, DiskcacheManager
+from dash import Dash
 from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from turnback.model.io.resources import assets_folder
 
-from . import callbacks, callbacks_map, callbacks_plans, callbacks_record
-from .layout import build_layout
-from .session import lake_to_store
-
-
-def cache_dir() -> Path:
-    """Folder for the background-callback cache: $TURNBACK_CACHE_DIR or a per-user temp folder."""
-    env = os.environ.get("TURNBACK_CACHE_DIR")
-    if env:
-        return Path(env)
-    return Path(tempfile.gettempdir()) / f"turnback-cache-{os.getuid() if hasattr(os, 'getuid') else 'user'}"
+from . import shell
+from .background import make_manager
+from .stores import demo_record, lake_to_store
+from .views.lake import callbacks as lake_callbacks
+from .views.map import callbacks as map_callbacks
+from .views.plans import callbacks as plans_callbacks
+from .views.record import callbacks as record_callbacks
 
 
 def create_app(data_dir: str | Path | None = None) -> Dash:
@@ -31,17 +24,17 @@ def create_app(data_dir: str | Path | None = None) -> Dash:
     the SQLite store in ``data_dir`` (default: $TURNBACK_DATA_DIR, else
     ./turnback-data; see :mod:`turnback.model.io.store`).
     """
-    manager = DiskcacheManager(diskcache.Cache(str(cache_dir())))
     app = Dash(
         __name__,
         title="Turnback",
         assets_folder=assets_folder(),
-        background_callback_manager=manager,
+        background_callback_manager=make_manager(),
         suppress_callback_exceptions=False,
     )
-    app.layout = build_layout(lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE), callbacks_record.demo_record())
-    callbacks.register(app)
-    callbacks_map.register(app)
-    callbacks_record.register(app)
-    callbacks_plans.register(app, Path(data_dir) if data_dir is not None else None)
+    app.layout = shell.build_layout(lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE), demo_record())
+    shell.register(app)
+    lake_callbacks.register(app)
+    map_callbacks.register(app)
+    record_callbacks.register(app)
+    plans_callbacks.register(app, Path(data_dir) if data_dir is not None else None)
     return app

@@ -20,8 +20,9 @@ import time
 from collections import defaultdict
 
 from flask import g, request
-from turnback.app.callbacks import history_patches, on_lake, step_session
-from turnback.app.session import lake_to_store, new_history
+from turnback.app.stores import lake_to_store, new_history
+from turnback.app.views.lake.callbacks import on_lake, step_session
+from turnback.app.views.lake.figures import history_patches
 from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 
 from tests.browser.harness import CHROMIUM_FLAGS, chromium_path, serve
@@ -52,7 +53,7 @@ def server_side(n_changes: int = 200, n_full: int = 30) -> tuple[float, float]:
     for _ in range(n_full):
         t0 = time.perf_counter()
         out = on_lake(lake, [], history, None)
-        out[1].to_json(), out[2].to_json()
+        out["equilibrium"].to_json(), out["time"].to_json()
         full_times.append(time.perf_counter() - t0)
     return statistics.median(patch_times) * 1e3, statistics.median(full_times) * 1e3
 

@@ -77,12 +77,12 @@ class Dashboard:
         self.page.wait_for_function("document.title !== 'Updating...'", timeout=timeout * 1000)
 
     def history_length(self) -> int:
-        from turnback.app.figures import EQ_HISTORY
+        from turnback.app.views.lake.figures import EQ_HISTORY
 
         return len(self.trace("equilibrium-graph", EQ_HISTORY, "x"))
 
     def wait_history_beyond(self, n: int, timeout: float = 15.0) -> None:
-        from turnback.app.figures import EQ_HISTORY
+        from turnback.app.views.lake.figures import EQ_HISTORY
 
         js = (
             f"(() => {{ const gd = {GRAPH_JS.format(gid='equilibrium-graph')};"
@@ -92,7 +92,7 @@ class Dashboard:
         self.wait_idle()
 
     def current(self) -> tuple[float, float]:
-        from turnback.app.figures import EQ_CURRENT
+        from turnback.app.views.lake.figures import EQ_CURRENT
 
         return self.trace("equilibrium-graph", EQ_CURRENT, "x")[0], self.trace("equilibrium-graph", EQ_CURRENT, "y")[0]
 

@@ -9,7 +9,7 @@ from __future__ import annotations
 from typing import Any
 
 import pytest
-from turnback.app.figures import EQ_TRACES
+from turnback.app.views.lake.figures import EQ_TRACES
 from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from turnback.model.equilibrium import equilibria, folds
 

@@ -14,9 +14,11 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-from turnback.app import callbacks_plans, ids
+from turnback.app import ids
 from turnback.app.report import CAUTIONS
-from turnback.app.session import lake_to_store, new_history
+from turnback.app.stores import lake_to_store, new_history
+from turnback.app.views.plans import callbacks as plans_callbacks
+from turnback.app.views.plans.readout import plan_lake
 from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from turnback.model.ensemble import compare_plan
 from turnback.model.equilibrium import folds
@@ -39,7 +41,7 @@ def slow_runs(monkeypatch: pytest.MonkeyPatch, tmp_path: Path) -> Iterator[Path]
 
     The results are the model's own; only the pace changes.
     """
-    real = callbacks_plans.compare_plan
+    real = plans_callbacks.compare_plan
 
     def paced(plan: Any, *, progress: Any = None, cancel: Any = None, sample_paths: int = 20) -> Any:
         def report(fraction: float, message: str) -> None:
@@ -48,7 +50,7 @@ def slow_runs(monkeypatch: pytest.MonkeyPatch, tmp_path: Path) -> Iterator[Path]
 
         return real(plan, progress=report, cancel=cancel, sample_paths=sample_paths)
 
-    monkeypatch.setattr(callbacks_plans, "compare_plan", paced)
+    monkeypatch.setattr(plans_callbacks, "compare_plan", paced)
     monkeypatch.setenv("TURNBACK_CACHE_DIR", str(tmp_path / "cache"))
     yield tmp_path / "data"
     PACE["seconds"] = 0.0
@@ -93,13 +95,23 @@ def add_scenario(dash: Dashboard, **fields: str) -> None:
     dash.wait_idle()
 
 
+#: the cells of one column of a grid (dash-ag-grid), top to bottom as shown
+GRID_COLUMN_JS = """([grid, col]) => Array.from(document.querySelectorAll(`#${grid} .ag-center-cols-container .ag-row`))
+    .sort((a, b) => Number(a.getAttribute('row-index')) - Number(b.getAttribute('row-index')))
+    .map(r => r.querySelector(`.ag-cell[col-id='${col}']`).innerText.trim())"""
+
+
 def list_names(dash: Dashboard) -> list[str]:
-    return [t.strip() for t in dash.page.locator(f"#{ids.PLAN_LIST} td[data-dash-column='name']").all_inner_texts()]
+    return list(dash.page.evaluate(GRID_COLUMN_JS, [ids.PLAN_LIST, "name"]))
 
 
 def column(dash: Dashboard, col: str) -> list[str]:
-    cells = dash.page.locator(f"#{ids.PLAN_TABLE} td[data-dash-column='{col}']")
-    return [t.strip() for t in cells.all_inner_texts()]
+    return list(dash.page.evaluate(GRID_COLUMN_JS, [ids.PLAN_TABLE, col]))
+
+
+def select_row(dash: Dashboard, index: int) -> None:
+    """Tick the selection box of the scenario list's row ``index`` (from the top)."""
+    dash.page.locator(f"#{ids.PLAN_LIST} .ag-row[row-index='{index}'] .ag-selection-checkbox input").check()
 
 
 def run_and_watch(dash: Dashboard, pace: float = 0.0, timeout: float = 30.0) -> set[str]:
@@ -140,7 +152,7 @@ def test_build_run_save_export_restart_and_keep_working(browser: Any, slow_runs:
         assert page.inner_text(f"#{ids.PLAN_RUN_MESSAGE}") == "Ran 2 scenarios."
         assert column(dash, "scenario") == [CUT.name, UP.name]
         # the numbers are the model's for the same scenarios from the same state
-        lake = callbacks_plans.plan_lake(lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE), None)
+        lake = plan_lake(lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE), None)
         start = new_history(lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE))["p"][0]
         assert lake.initial_p_kg == pytest.approx(start)
         expected = compare_plan(Plan(lake, (CUT, UP))).results
@@ -148,7 +160,7 @@ def test_build_run_save_export_restart_and_keep_working(browser: Any, slow_runs:
         assert column(dash, "final_tp_median_ug_l") == [f"{r.final_tp_median_ug_l:.1f}" for r in expected]
         assert expected[1].p_flip > 0.5 > expected[0].p_flip  # the two plans differ, so the order check can fail
         # sortable: ascending final TP puts the cut first, descending the other way round
-        header = page.locator(f"#{ids.PLAN_TABLE} th[data-dash-column='final_tp_median_ug_l'] .column-header--sort")
+        header = page.locator(f"#{ids.PLAN_TABLE} .ag-header-cell[col-id='final_tp_median_ug_l'] .ag-header-cell-label")
         header.click()
         dash.wait_idle()
         order = [r.name for r in sorted(expected, key=lambda r: r.final_tp_median_ug_l)]
@@ -165,7 +177,9 @@ def test_build_run_save_export_restart_and_keep_working(browser: Any, slow_runs:
         # the meeting view: larger text, one column, the main columns of the table
         page.click(f"#{ids.MEETING_TOGGLE} input")
         dash.wait_idle()
-        size = page.evaluate(f"parseFloat(getComputedStyle(document.querySelector('#{ids.PLAN_TABLE} td')).fontSize)")
+        size = page.evaluate(
+            f"parseFloat(getComputedStyle(document.querySelector('#{ids.PLAN_TABLE} .ag-cell')).fontSize)"
+        )
         assert size >= 20
         dash.screenshot("plans-meeting-view.png")
         page.click(f"#{ids.MEETING_TOGGLE} input")
@@ -228,15 +242,14 @@ def keep_working(dash: Dashboard) -> None:
     """Edit the plan found again, make a mistake, run, cancel a run, ask for the precautionary load."""
     page = dash.page
     # duplicate, delete, edit
-    radios = page.locator(f"#{ids.PLAN_LIST} input[type='radio']")
-    radios.nth(1).check()
+    select_row(dash, 1)
     page.click(f"#{ids.PLAN_DUPLICATE}")
     dash.wait_idle()
     assert list_names(dash) == [CUT.name, UP.name, f"{UP.name} (copy)"]
     page.click(f"#{ids.PLAN_DELETE}")  # the copy is selected
     dash.wait_idle()
     assert list_names(dash) == [CUT.name, UP.name]
-    radios.nth(0).check()
+    select_row(dash, 0)
     page.click(f"#{ids.PLAN_EDIT}")
     dash.wait_idle()
     assert page.input_value(f"#{ids.PLAN_FORM['name']}") == CUT.name

@@ -6,7 +6,7 @@ import time
 from pathlib import Path
 from typing import Any
 
-from turnback.app.figures import EQ_OBSERVED, EQ_TRACES
+from turnback.app.views.lake.figures import EQ_OBSERVED, EQ_TRACES
 
 SAMPLE = Path(__file__).resolve().parents[2] / "sample_data" / "amberlin_monitoring.csv"
 

@@ -86,7 +86,6 @@ def _cycles(graph: dict[str, set[str]]) -> list[list[str]]:
     return cycles
 
 
-@pytest.mark.xfail(strict=True, reason="app.callbacks_plans <-> app.server: ends with the app restructure")
 def test_there_are_no_import_circles() -> None:
     assert _cycles(GRAPH) == []
 

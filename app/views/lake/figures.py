@@ -1,23 +1,39 @@
-"""Figure builders: model results in, ``go.Figure`` out.  No callbacks here.
+"""Figure builders of the lake view: model results in, ``go.Figure`` (or a ``Patch``) out.  No callbacks here.
 
 The trace order of each figure is fixed (see ``EQ_TRACES`` and
 ``TIME_TRACES``) so that callbacks can patch the history layers in place
-without rebuilding the whole figure.
+without rebuilding the whole figure (:func:`history_patches`).
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 import numpy as np
 import plotly.graph_objects as go
+from dash import Patch
 from plotly.subplots import make_subplots
 from turnback.model.clarity import OECD_CLASSES, expected_secchi
 from turnback.model.equilibrium import LakeAnalysis
 from turnback.model.params import LakeProfile
-from turnback.model.regime_map import RegimeMap
 from turnback.model.trophic_coefficients import OECD_1982
+
+from ...stores import lake_from_store
+from ...theme import (
+    BISTABLE,
+    CLEAR,
+    CURRENT,
+    FOLD,
+    HISTORY,
+    OBSERVED,
+    SEPARATRIX,
+    TODAY,
+    TURBID,
+    height,
+    load_axis_title,
+    sizes,
+)
 
 #: fixed trace order of the equilibrium figure
 EQ_TRACES = ("lower", "middle", "upper", "folds", "observed", "history", "current")
@@ -30,21 +46,11 @@ TIME_TRACES = ("tp", "load", "observed_tp", "observed_load")
 TIME_TP = 0
 TIME_LOAD = 1
 
-# our palette
-CLEAR = "#1f6fa8"  # clear-water branch
-TURBID = "#7a8f1c"  # turbid, algae-dominated branch
-SEPARATRIX = "#7d7d7d"
-FOLD = "#2d2d2d"
-BISTABLE = "rgba(232, 180, 60, 0.17)"
-HISTORY = "#b5462f"
-CURRENT = "#e0701a"
-TODAY = "#5b4a8a"
-
 
 def _labels(meeting: bool) -> dict[str, str]:
     if meeting:
         return {
-            "x": "Phosphorus flowing in each year (kg)",
+            "x": load_axis_title(True),
             "y": "Phosphorus in the lake water (µg per litre)",
             "lower": "Clear water",
             "middle": "Tipping threshold",
@@ -60,7 +66,7 @@ def _labels(meeting: bool) -> dict[str, str]:
             "load": "Inflow (kg/yr)",
         }
     return {
-        "x": "External P load L [kg yr⁻¹]",
+        "x": load_axis_title(False),
         "y": "Lake total phosphorus TP [µg L⁻¹]",
         "lower": "Clear-water branch (stable)",
         "middle": "Separatrix (unstable)",
@@ -78,10 +84,11 @@ def _labels(meeting: bool) -> dict[str, str]:
 
 
 def _style(meeting: bool) -> dict[str, Any]:
-    return {"font": 22 if meeting else 15, "line": 5 if meeting else 3, "marker": 20 if meeting else 14}
+    sz = sizes(meeting)
+    return {"font": sz.font, "line": sz.line, "marker": sz.marker}
 
 
-def history_xy(history: dict[str, Sequence[float]], profile: LakeProfile) -> dict[str, Any]:
+def history_xy(history: Mapping[str, Sequence[float]], profile: LakeProfile) -> dict[str, Any]:
     """Load and TP [µg L⁻¹] of every history point, for the figure layers."""
     p = np.asarray(history["p"], dtype=float)
     return {
@@ -94,12 +101,12 @@ def history_xy(history: dict[str, Sequence[float]], profile: LakeProfile) -> dic
 def equilibrium_figure(
     analysis: LakeAnalysis,
     profile: LakeProfile,
-    history: dict[str, Sequence[float]],
+    history: Mapping[str, Any],
     *,
     present_load: float,
     load_max: float,
     meeting: bool = False,
-    fit: dict[str, Any] | None = None,
+    fit: Mapping[str, Any] | None = None,
 ) -> go.Figure:
     """Equilibrium curve (load against TP) with folds, bistable band, history and current state.
 
@@ -157,7 +164,7 @@ def equilibrium_figure(
             customdata=obs["year"],
             mode="markers",
             name="observed years",
-            marker={"size": sty["marker"] // 2 + 2, "color": "rgba(40,40,40,0.55)", "symbol": "square"},
+            marker={"size": sty["marker"] // 2 + 2, "color": OBSERVED, "symbol": "square"},
             hovertemplate="%{customdata}: %{x:.0f} kg/yr, %{y:.1f} µg/L<extra>observed</extra>",
             showlegend=bool(obs["load"]),
         )
@@ -220,7 +227,7 @@ def equilibrium_figure(
         template="plotly_white",
         font={"size": sty["font"]},
         margin={"l": 70, "r": 20, "t": 30, "b": 60},
-        height=600 if meeting else 500,
+        height=height("equilibrium", meeting),
         xaxis={"title": lab["x"], "range": [min(0.0, float(np.min(analysis.curve.load))), load_max], "zeroline": True},
         yaxis={"title": lab["y"], "range": [0.0, y_top], "rangemode": "tozero"},
         legend={"orientation": "h", "yanchor": "bottom", "y": 1.01, "x": 0.0},
@@ -229,7 +236,7 @@ def equilibrium_figure(
     return fig
 
 
-def _fold_bands(fig: go.Figure, fit: dict[str, Any], load_max: float, font: int) -> None:
+def _fold_bands(fig: go.Figure, fit: Mapping[str, Any], load_max: float, font: int) -> None:
     """The fitted folds' bootstrap intervals as vertical bands."""
     for key, label, colour in (
         ("tipping", "tipping load", "rgba(31,111,168,0.13)"),
@@ -284,11 +291,11 @@ def _trophic_bands(fig: go.Figure, y_top: float, font: int, meeting: bool) -> No
 
 
 def time_figure(
-    history: dict[str, Sequence[float]],
+    history: Mapping[str, Any],
     profile: LakeProfile,
     *,
     meeting: bool = False,
-    fit: dict[str, Any] | None = None,
+    fit: Mapping[str, Any] | None = None,
 ) -> go.Figure:
     """Lake TP and load against year, for the same history (and the observed record of a fitted lake)."""
     lab = _labels(meeting)
@@ -321,7 +328,7 @@ def time_figure(
         col=1,
     )
     obs = (fit or {}).get("observed") or {"year": [], "load": [], "tp": []}
-    grey = {"size": sty["marker"] // 2, "color": "rgba(40,40,40,0.55)", "symbol": "square"}
+    grey = {"size": sty["marker"] // 2, "color": OBSERVED, "symbol": "square"}
     fig.add_trace(go.Scatter(x=obs["year"], y=obs["tp"], mode="markers", name="observed TP", marker=grey), row=1, col=1)
     fig.add_trace(
         go.Scatter(x=obs["year"], y=obs["load"], mode="markers", name="observed load", marker=grey), row=2, col=1
@@ -330,7 +337,7 @@ def time_figure(
         template="plotly_white",
         font={"size": sty["font"] - 1},
         margin={"l": 90 if meeting else 70, "r": 20, "t": 20, "b": 50},
-        height=420 if meeting else 360,
+        height=height("time", meeting),
         showlegend=False,
         uirevision="time",
     )
@@ -340,124 +347,24 @@ def time_figure(
     return fig
 
 
-REGIME_FILL = {
-    "reversible": "rgba(31, 111, 168, 0.07)",
-    "hysteretic": "rgba(232, 180, 60, 0.10)",
-    "irreversible": "rgba(163, 58, 31, 0.08)",
-}
+def history_patches(history: Mapping[str, Any], lake: Mapping[str, Any]) -> tuple[Patch, Patch]:
+    """Patches that redraw only the history layers of both figures.
 
-
-def regime_map_figure(
-    rmap: RegimeMap,
-    *,
-    load_now: float,
-    cloud: tuple[Sequence[float], Sequence[float]] | None = None,
-    meeting: bool = False,
-) -> go.Figure:
-    """The (load, parameter) plane: regime bands, fold curves, the bistable wedge, the lake and its fitted cloud."""
-    sty = _style(meeting)
-    axis_title = {
-        "loss_rate": "Loss rate s [yr⁻¹]" if not meeting else "How fast the lake loses phosphorus (per year)",
-        "recycling_max": "Maximum recycling r [kg yr⁻¹]" if not meeting else "Phosphorus released from mud (kg/yr)",
-    }[rmap.axis]
-    fig = go.Figure()
-    lo_p, hi_p = rmap.parameter_range
-    loads = np.concatenate([rmap.tipping.load, rmap.recovery.load, [load_now, 0.0]])
-    x_hi = max(float(np.nanmax(loads)), load_now) * 1.15
-    x_lo = max(min(0.0, float(np.nanmin(loads))) * 1.05, -0.6 * x_hi)
-    for reg, b_lo, b_hi in rmap.bands:
-        fig.add_hrect(
-            y0=b_lo,
-            y1=b_hi,
-            fillcolor=REGIME_FILL[reg],
-            line_width=0,
-            layer="below",
-            annotation_text=reg,
-            annotation_position="top right",
-            annotation_font={"size": sty["font"] - 2, "color": "#444"},
-        )
-    if x_lo < 0:
-        fig.add_vrect(
-            x0=x_lo,
-            x1=0.0,
-            fillcolor="rgba(120,120,120,0.12)",
-            line_width=0,
-            layer="below",
-            annotation_text="below zero load",
-            annotation_position="bottom left",
-            annotation_font={"size": sty["font"] - 4, "color": "#555"},
-        )
-    fig.add_trace(
-        go.Scatter(
-            x=rmap.fold_load,
-            y=rmap.fold_parameter,
-            mode="lines",
-            fill="toself",
-            fillcolor=BISTABLE,
-            line={"color": "rgba(0,0,0,0)"},
-            hoverinfo="skip",
-            name="two stable states",
-            showlegend=True,
-        )
-    )
-    fig.add_trace(
-        go.Scatter(
-            x=rmap.tipping.load,
-            y=rmap.tipping.parameter,
-            mode="lines",
-            name="tipping fold",
-            line={"color": CLEAR, "width": sty["line"]},
-            hovertemplate="tipping fold: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
-        )
-    )
-    fig.add_trace(
-        go.Scatter(
-            x=rmap.recovery.load,
-            y=rmap.recovery.parameter,
-            mode="lines",
-            name="recovery fold",
-            line={"color": TURBID, "width": sty["line"]},
-            hovertemplate="recovery fold: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
-        )
-    )
-    if rmap.cusp is not None and lo_p <= rmap.cusp.parameter <= hi_p:
-        fig.add_trace(
-            go.Scatter(
-                x=[rmap.cusp.load],
-                y=[rmap.cusp.parameter],
-                mode="markers",
-                name="cusp",
-                marker={"symbol": "diamond", "size": sty["marker"], "color": FOLD},
-            )
-        )
-    if cloud is not None and len(cloud[0]):
-        fig.add_trace(
-            go.Scatter(
-                x=list(cloud[0]),
-                y=list(cloud[1]),
-                mode="markers",
-                name="fitted lakes (bootstrap)",
-                marker={"size": 4, "color": "rgba(91, 74, 138, 0.35)"},
-                hoverinfo="skip",
-            )
-        )
-    fig.add_trace(
-        go.Scatter(
-            x=[load_now],
-            y=[rmap.lake_parameter],
-            mode="markers",
-            name="this lake now",
-            marker={"size": sty["marker"] * 1.4, "color": CURRENT, "line": {"color": "white", "width": 2}},
-            hovertemplate="this lake: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
-        )
-    )
-    fig.update_layout(
-        template="plotly_white",
-        font={"size": sty["font"]},
-        height=620 if meeting else 540,
-        margin={"l": 80, "r": 20, "t": 40, "b": 60},
-        xaxis={"title": _labels(meeting)["x"], "range": [x_lo, x_hi]},
-        yaxis={"title": axis_title, "range": [lo_p, hi_p]},
-        legend={"orientation": "h", "yanchor": "bottom", "y": 1.01, "x": 0.0},
-    )
-    return fig
+    The equilibrium figure is patched in the same response as the load
+    change; the time panel in the chained readout callback, so the main
+    figure redraws first.
+    """
+    _, profile = lake_from_store(lake)
+    hxy = history_xy(history, profile)
+    eq = Patch()
+    eq["data"][EQ_HISTORY]["x"] = hxy["load"]
+    eq["data"][EQ_HISTORY]["y"] = hxy["tp"]
+    eq["data"][EQ_HISTORY]["customdata"] = hxy["year"]
+    eq["data"][EQ_CURRENT]["x"] = hxy["load"][-1:]
+    eq["data"][EQ_CURRENT]["y"] = hxy["tp"][-1:]
+    tf = Patch()
+    tf["data"][TIME_TP]["x"] = hxy["year"]
+    tf["data"][TIME_TP]["y"] = hxy["tp"]
+    tf["data"][TIME_LOAD]["x"] = hxy["year"]
+    tf["data"][TIME_LOAD]["y"] = hxy["load"]
+    return eq, tf

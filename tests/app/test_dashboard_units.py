@@ -4,15 +4,28 @@ from __future__ import annotations
 
 import plotly.graph_objects as go
 import pytest
-from turnback.app.callbacks import history_patches, on_settings, step_session
-from turnback.app.figures import EQ_CURRENT, EQ_HISTORY, EQ_TRACES, TIME_TRACES, equilibrium_figure, time_figure
-from turnback.app.layout import slider_config
-from turnback.app.readout import build_readout, removal_text
-from turnback.app.session import advance, lake_key, lake_to_store, new_history, remove_p
-from turnback.app.validate import FIELD_RULES, check_settings
+from turnback.app import ids
+from turnback.app.shell import on_view
+from turnback.app.stores import lake_key, lake_to_store, new_history
+from turnback.app.views.lake.callbacks import on_settings, step_session
+from turnback.app.views.lake.figures import (
+    EQ_CURRENT,
+    EQ_HISTORY,
+    EQ_TRACES,
+    TIME_TRACES,
+    equilibrium_figure,
+    history_patches,
+    time_figure,
+)
+from turnback.app.views.lake.history import advance, remove_p
+from turnback.app.views.lake.layout import slider_config
+from turnback.app.views.lake.readout import build_readout, removal_text
+from turnback.app.views.lake.settings import check_settings
+from turnback.app.views.map.figures import regime_map_figure
 from turnback.model.demo import DEMO_PARAMETERS as P
 from turnback.model.demo import DEMO_PROFILE as PROF
 from turnback.model.equilibrium import analyze, equilibria, folds
+from turnback.model.regime_map import regime_map
 
 LAKE = lake_to_store(P, PROF)
 
@@ -136,23 +149,19 @@ def test_settings_messages(field: str, value: str, fragment: str) -> None:
     assert lake is None
     assert fragment in msgs[field]
     # through the callback: the store is left alone
-    out = on_settings(*[values[f] for f in FIELD_RULES], LAKE)
-    assert out[0] is not None and out[0].__class__.__name__ == "NoUpdate"
+    out = on_settings(values, LAKE)
+    assert out["lake"] is not None and out["lake"].__class__.__name__ == "NoUpdate"
 
 
 def test_regime_map_figure_and_view_switch() -> None:
-    from turnback.app.callbacks_map import on_view
-    from turnback.app.figures import regime_map_figure
-    from turnback.model.regime_map import regime_map
-
     rmap = regime_map(P)
     fig = regime_map_figure(rmap, load_now=420.0, cloud=([400.0, 430.0], [0.49, 0.51]))
     names = [t.name for t in fig.data]
     assert {"tipping fold", "recovery fold", "this lake now", "fitted lakes (bootstrap)"} <= set(names)
     lake = next(t for t in fig.data if t.name == "this lake now")
     assert tuple(lake.y) == (P.loss_rate,)
-    styles = on_view("map")
-    assert styles[list(__import__("turnback.app.ids", fromlist=["VIEWS"]).VIEWS).index("map")] == {}
+    styles = on_view(ids.TAB_MAP)
+    assert styles[list(ids.VIEWS).index(ids.TAB_MAP)] == {}
     assert sum(1 for s in styles if s == {"display": "none"}) == 3
 
 

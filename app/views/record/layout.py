@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from dash import dcc, html
 
-from . import ids
-from .layout_parts import graph_config
+from ... import ids
+from ...theme import graph_config
 
 FORMAT_HINT = (
     "CSV with one row a year: year, load_kg (external TP load that year, kg), tp_ug_l (lake mean TP, µg/L); "

@@ -4,12 +4,12 @@ from __future__ import annotations
 
 from typing import Any
 
-from dash import dash_table, dcc, html
-from dash.dash_table.Format import Format, Group, Scheme
+import dash_ag_grid as dag
+from dash import dcc, html
 
-from . import ids
-from .figures_plans import FIGURES, TABLE_COLUMNS
-from .layout_parts import graph_config
+from ... import ids
+from ...theme import graph_config
+from .figures import FIGURES, table_columns
 
 INTRO = (
     "Build scenarios for the current lake, run them as ensembles through the annual phosphorus model and compare "
@@ -48,7 +48,7 @@ PRECAUTION_HINT = (
     "noise, members, seed and clear-state rule. The ± is its Monte-Carlo error (one standard error)."
 )
 
-#: graph ids in the order of :data:`app.figures_plans.FIGURES`
+#: graph ids in the order of :data:`app.views.plans.figures.FIGURES`
 GRAPHS = (ids.PLAN_TRAJECTORY_GRAPH, ids.PLAN_CLEAR_GRAPH, ids.PLAN_RECOVERY_GRAPH, ids.PLAN_LOAD_GRAPH)
 
 
@@ -228,19 +228,24 @@ def _list_card() -> html.Div:
     return html.Div(
         [
             html.H2("Scenarios of the plan"),
-            dash_table.DataTable(  # type: ignore[attr-defined]
+            dag.AgGrid(
                 id=ids.PLAN_LIST,
-                columns=[
-                    {"id": "name", "name": "Scenario"},
-                    {"id": "plan", "name": "Plan"},
-                    {"id": "ensemble", "name": "Ensemble"},
+                columnDefs=[
+                    {"field": "name", "headerName": "Scenario", "flex": 1},
+                    {"field": "plan", "headerName": "Plan", "flex": 2},
+                    {"field": "ensemble", "headerName": "Ensemble", "flex": 2},
                 ],
-                data=[],
-                row_selectable="single",
-                selected_rows=[],
-                style_cell={"textAlign": "left", "whiteSpace": "normal", "height": "auto", "padding": "4px 8px"},
-                style_as_list_view=True,
-                css=[{"selector": ".dash-spreadsheet-menu", "rule": "display: none"}],
+                rowData=[],
+                getRowId="params.data.name",
+                selectedRows=[],
+                defaultColDef={"sortable": False, "wrapText": True, "autoHeight": True, "suppressMovable": True},
+                dashGridOptions={
+                    "rowSelection": {"mode": "singleRow", "checkboxes": True, "enableClickSelection": True},
+                    "domLayout": "autoHeight",
+                    "ensureDomOrder": True,
+                    "localeText": {"noRowsToShow": "No scenarios yet: fill in the form and press 'Add to the plan'."},
+                },
+                className="plan-grid-table",
             ),
             html.Div(
                 [
@@ -271,60 +276,32 @@ def _list_card() -> html.Div:
     )
 
 
-def _num(fmt: Format) -> dict[str, Any]:
-    return {"type": "numeric", "format": fmt.to_plotly_json()}
-
-
-#: the outcome table's columns in the meeting view (the rest are in the CSV and the report)
-MEETING_COLUMNS = (
-    "scenario",
-    "p_clear_final",
-    "p_flip",
-    "recovery_years_median",
-    "final_tp_median_ug_l",
-    "secchi_m",
-    "tsi_class",
-    "total_removed_kg",
-)
-
-
-def table_columns(meeting: bool = False) -> list[dict[str, Any]]:
-    """DataTable columns of the outcome table, with number formats ('–' where undefined)."""
-    pct = Format(precision=1, scheme=Scheme.percentage).nully("–")
-    fmt: dict[str, dict[str, Any]] = {
-        "p_clear_final": _num(pct),
-        "p_clear_final_se": _num(pct),
-        "p_flip": _num(pct),
-        "recovery_years_median": _num(Format(precision=0, scheme=Scheme.fixed).nully("–")),
-        "p_recovered": _num(pct),
-        "p_relapse": _num(pct),
-        "final_tp_median_ug_l": _num(Format(precision=1, scheme=Scheme.fixed).nully("–")),
-        "secchi_m": _num(Format(precision=1, scheme=Scheme.fixed).nully("–")),
-    }
-    kg = _num(Format(precision=0, scheme=Scheme.fixed, group=Group.yes).nully("–"))
-    for key in ("load_cut_kg", "in_lake_removal_kg", "total_removed_kg"):
-        fmt[key] = kg
-    keys = MEETING_COLUMNS if meeting else tuple(TABLE_COLUMNS)
-    return [{"id": k, "name": TABLE_COLUMNS[k], **fmt.get(k, {"type": "text"})} for k in keys]
-
-
 def _results_card() -> html.Div:
     return html.Div(
         [
             html.H2("Outcomes side by side"),
             html.Div(id=ids.PLAN_RESULTS_NOTE, className="readout-row"),
             html.P("Click a column heading to sort.", className="hint"),
-            dash_table.DataTable(  # type: ignore[attr-defined]
+            dag.AgGrid(
                 id=ids.PLAN_TABLE,
-                columns=table_columns(),
-                data=[],
-                sort_action="native",
-                sort_mode="single",
-                style_cell={"whiteSpace": "normal", "height": "auto", "textAlign": "right", "padding": "4px 8px"},
-                style_cell_conditional=[{"if": {"column_id": "scenario"}, "textAlign": "left"}],
-                style_header={"fontWeight": "600"},
-                style_table={"overflowX": "auto"},
-                css=[{"selector": ".dash-spreadsheet-menu", "rule": "display: none"}],
+                columnDefs=table_columns(),
+                rowData=[],
+                defaultColDef={
+                    "sortable": True,
+                    "wrapText": True,
+                    "autoHeight": True,
+                    "wrapHeaderText": True,
+                    "autoHeaderHeight": True,
+                    "suppressMovable": True,
+                    "minWidth": 90,
+                    "flex": 1,
+                },
+                dashGridOptions={
+                    "domLayout": "autoHeight",
+                    "ensureDomOrder": True,
+                    "localeText": {"noRowsToShow": "Run the plan to see its outcomes here."},
+                },
+                className="plan-grid-table",
             ),
             html.P(DEFINITIONS, id=ids.PLAN_DEFINITIONS, className="hint plan-definitions"),
             html.P(RESULT_CAUTION, className="treatment-caution"),
@@ -413,12 +390,6 @@ def _save_card() -> html.Div:
 
 def build_view() -> list[Any]:
     return [
-        dcc.Store(id=ids.PLAN_STORE, storage_type="session", data={"scenarios": []}),
-        dcc.Store(id=ids.PLAN_EDITING, storage_type="session"),
-        dcc.Store(id=ids.PLAN_RESULTS_STORE, storage_type="session"),
-        dcc.Store(id=ids.PLAN_PRECAUTION_STORE, storage_type="session"),
-        dcc.Store(id=ids.PLAN_RUN_REQUEST, storage_type="memory"),
-        dcc.Store(id=ids.PLAN_PRECAUTION_REQUEST, storage_type="memory"),
         html.Div(
             [
                 html.H2("Plans compared"),

@@ -16,22 +16,14 @@ from pathlib import Path
 import numpy as np
 import plotly.graph_objects as go
 import pytest
-from turnback.app.report import (
-    CAUTIONS,
-    build_report_html,
-    clear_probability_figure,
-    recovery_figure,
-    report_figures,
-    trajectory_figure,
-    write_csv,
-    write_pngs,
-)
+from turnback.app.report import CAUTIONS, build_report_html, report_figures, write_csv, write_pngs
+from turnback.app.views.plans.figures import clear_probability_figure, recovery_figure, trajectory_figure
 from turnback.model.ensemble import compare_plan
 from turnback.model.params import LakeParameters
 from turnback.model.plan import Plan, Precaution, Scenario, ScenarioLake
 from turnback.model.schedules import ConstantLoad, LinearCut, Removal
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 LAKE = ScenarioLake(LakeParameters(0.8, 30000.0, 25000.0, 6.0), 2.0e8, 120.0, "Lake Amberlin (fictional)")
 PLAN = Plan(
     LAKE,

@@ -17,11 +17,36 @@ from typing import Any
 import numpy as np
 import pytest
 from dash import no_update
-from turnback.app import callbacks_plans as cp
-from turnback.app import ids, view_plans
-from turnback.app.figures_plans import TABLE_COLUMNS, outcome_table, result_figures, view_figure
-from turnback.app.report import CAUTIONS, outcome_rows, recovery_figure
-from turnback.app.session import lake_to_store, new_history, starting_state
+from turnback.app import ids
+from turnback.app.background import cancel_hook, new_token, request_cancel
+from turnback.app.report import CAUTIONS, outcome_rows
+from turnback.app.stores import comparison_from_store, lake_to_store, new_history, starting_state, state_now
+from turnback.app.views.plans import layout as view_plans
+from turnback.app.views.plans.callbacks import (
+    on_lake_note,
+    on_load_kind,
+    on_load_saved,
+    on_precaution_request,
+    on_results,
+    on_results_note,
+    on_saved_select,
+    run_plan,
+)
+from turnback.app.views.plans.export import export
+from turnback.app.views.plans.figures import (
+    MEETING_COLUMNS,
+    TABLE_COLUMNS,
+    outcome_table,
+    recovery_figure,
+    result_figures,
+    table_columns,
+    view_figure,
+)
+from turnback.app.views.plans.form import FORM_DEFAULTS, form_from_scenario, parse_form
+from turnback.app.views.plans.precaution import run_precaution
+from turnback.app.views.plans.readout import plan_lake, precaution_words
+from turnback.app.views.plans.saved import save_plan, saved_options
+from turnback.app.views.plans.scenarios import action_outputs, free_name, list_rows, plan_action
 from turnback.model.clarity import clarity
 from turnback.model.clear_state import scenario_clear_below_kg
 from turnback.model.demo import DEMO_PARAMETERS as P
@@ -40,7 +65,7 @@ TIP = folds(P)[0]
 
 
 def form(**changes: str) -> dict[str, Any]:
-    return dict(cp.FORM_DEFAULTS) | changes
+    return dict(FORM_DEFAULTS) | changes
 
 
 def model_message(build: Any) -> str:
@@ -85,54 +110,54 @@ class Progress:
 def test_plan_starts_from_the_lake_state_now() -> None:
     h = new_history(LAKE)
     # without a matching history: the clear equilibrium at today's load (the engine's lowest stable state)
-    p, load, year = cp.current_state(LAKE, None)
+    p, load, year = state_now(LAKE, None)
     assert p == pytest.approx(equilibria(P, TODAY)[0].p) and load == TODAY and year is None
     h2 = dict(h, year=[0, 5], load=[TODAY, 600.0], p=[h["p"][0], 2500.0], event=["start", ""])
-    assert cp.current_state(LAKE, h2) == (2500.0, 600.0, 5)
+    assert state_now(LAKE, h2) == (2500.0, 600.0, 5)
     stale = dict(h2, lake_key="not this lake")
-    assert cp.current_state(LAKE, stale)[0] == pytest.approx(starting_state(P, TODAY))
-    slake = cp.plan_lake(LAKE, h2)
+    assert state_now(LAKE, stale)[0] == pytest.approx(starting_state(P, TODAY))
+    slake = plan_lake(LAKE, h2)
     assert slake.initial_p_kg == pytest.approx(2500.0) and slake.params == P
     assert slake.volume_m3 == PROF.volume_m3 and slake.name == PROF.name
 
 
 def test_lake_note_names_the_start_and_fills_the_default_load() -> None:
     h = new_history(LAKE)
-    note, placeholder, name = cp.on_lake_note("plans", LAKE, h)
+    note, placeholder, name = on_lake_note("plans", LAKE, h)
     text = "".join(str(x) for x in note[1:])
     tp = float(PROF.concentration(h["p"][-1]))
     assert f"TP {tp:.1f} µg/L" in text and f"{TIP.load:,.0f}" in text
     assert placeholder == f"{TODAY:,.0f} (the load now)" and name == PROF.name
-    assert cp.on_lake_note("lake", LAKE, h) == (no_update, no_update, no_update)
+    assert on_lake_note("lake", LAKE, h) == (no_update, no_update, no_update)
 
 
 # --------------------------------------------------------------------------
 # the form
 # --------------------------------------------------------------------------
 def test_default_form_is_a_linear_cut_from_the_load_now() -> None:
-    s, problems = cp.parse_form(form(), TODAY)
+    s, problems = parse_form(form(), TODAY)
     assert all(not v for v in problems.values())
     assert s == Scenario("Scenario 1", 30, LinearCut(TODAY, 40.0, 10), variability_cv=0.2, members=500, seed=1)
 
 
 def test_every_load_kind_and_treatment() -> None:
-    s, _ = cp.parse_form(form(load_kind="constant", load_from="380"), TODAY)
+    s, _ = parse_form(form(load_kind="constant", load_from="380"), TODAY)
     assert s is not None and s.load == ConstantLoad(380.0)
-    s, _ = cp.parse_form(form(load_kind="step", step_to="250", step_year="4", years="10"), TODAY)
+    s, _ = parse_form(form(load_kind="step", step_to="250", step_year="4", years="10"), TODAY)
     assert s is not None and s.load == StepLoad(TODAY, 250.0, 4)
-    s, _ = cp.parse_form(form(load_kind="table", table="300, 290,280;\n270,", years="4"), TODAY)
+    s, _ = parse_form(form(load_kind="table", table="300, 290,280;\n270,", years="4"), TODAY)
     assert s is not None and s.load == TableLoad((300.0, 290.0, 280.0, 270.0))
-    s, _ = cp.parse_form(
+    s, _ = parse_form(
         form(removal_kg="1500", removal_year="2", inact_percent="60", inact_year="3", inact_years="4"), TODAY
     )
     assert s is not None and s.treatments == (Removal(2, 1500.0), Inactivation(3, 60.0, 4))
-    s, _ = cp.parse_form(form(seed="", noise_sd="30", clear_rule="fixed", clear_tp="40", stay_years="5"), TODAY)
+    s, _ = parse_form(form(seed="", noise_sd="30", clear_rule="fixed", clear_tp="40", stay_years="5"), TODAY)
     assert s is not None and s.seed is None and s.process_noise_sd_kg == 30.0
     assert s.clear_threshold == 40.0 and s.recovery_stay_years == 5
 
 
 def test_bad_fields_get_the_models_messages_beside_their_section() -> None:
-    s, problems = cp.parse_form(form(cut_percent="120", years="abc", members="0", cv="-1", removal_kg="5"), TODAY)
+    s, problems = parse_form(form(cut_percent="120", years="abc", members="0", cv="-1", removal_kg="5"), TODAY)
     assert s is None
     assert problems["basics"] == [
         "Horizon: 'abc' is not a number; write digits with a point for decimals (such as 1200 or 0.25), "
@@ -147,17 +172,17 @@ def test_bad_fields_get_the_models_messages_beside_their_section() -> None:
 
 
 def test_cross_field_messages_land_in_the_right_section() -> None:
-    _, p = cp.parse_form(form(load_kind="table", table="300, 290", years="3"), TODAY)
+    _, p = parse_form(form(load_kind="table", table="300, 290", years="3"), TODAY)
     expected = model_message(lambda: Scenario("x", 3, TableLoad((300.0, 290.0))))
     assert p["load"] == ["Loads of years 1, 2, …" + expected[len("load.kg_per_yr") :]]
-    _, p = cp.parse_form(form(years="10", inact_percent="50", inact_year="12", inact_years="2"), TODAY)
+    _, p = parse_form(form(years="10", inact_percent="50", inact_year="12", inact_years="2"), TODAY)
     assert p["treatments"] and p["treatments"][0].startswith("Inactivation start year must be between 1 and 10")
-    _, p = cp.parse_form(form(years="1000", members="100000"), TODAY)
+    _, p = parse_form(form(years="1000", members="100000"), TODAY)
     assert p["variability"] and p["variability"][0].startswith("Members × years must be at most")
-    _, p = cp.parse_form(form(load_kind="table", table="300,,290", years="3", name="  "), TODAY)
+    _, p = parse_form(form(load_kind="table", table="300,,290", years="3", name="  "), TODAY)
     assert "Load of year 2 is empty" in p["load"][0]
     assert p["basics"] == ["Name " + tail(model_message(lambda: Scenario("  ", 1, ConstantLoad(0.0))))]
-    _, p = cp.parse_form(form(load_kind="table", table="300, -1", years="2"), TODAY)
+    _, p = parse_form(form(load_kind="table", table="300, -1", years="2"), TODAY)
     assert p["load"][0].startswith("Load of year 2 must be at least 0")
 
 
@@ -178,8 +203,8 @@ def test_cross_field_messages_land_in_the_right_section() -> None:
     ],
 )
 def test_form_round_trip(scenario: Scenario) -> None:
-    values, extra = cp.form_from_scenario(scenario)
-    back, problems = cp.parse_form(values, 999.0, extra, scenario.description)
+    values, extra = form_from_scenario(scenario)
+    back, problems = parse_form(values, 999.0, extra, scenario.description)
     assert all(not v for v in problems.values()), problems
     assert back is not None
     assert back.to_dict() | {"treatments": sorted(map(str, back.treatments))} == scenario.to_dict() | {
@@ -191,62 +216,62 @@ def test_form_round_trip(scenario: Scenario) -> None:
 # list actions
 # --------------------------------------------------------------------------
 def test_add_edit_duplicate_delete() -> None:
-    res = cp.plan_action(ids.PLAN_ADD, form(), [], {"scenarios": []}, None, TODAY)
+    res = plan_action(ids.PLAN_ADD, form(), [], {"scenarios": []}, None, TODAY)
     plan = res["plan"]
     assert [s["name"] for s in plan["scenarios"]] == ["Scenario 1"] and res["form"] == {"name": "Scenario 2"}
     # a name already used is refused, the plan is unchanged
-    res = cp.plan_action(ids.PLAN_ADD, form(), [], plan, None, TODAY)
+    res = plan_action(ids.PLAN_ADD, form(), [], plan, None, TODAY)
     assert "plan" not in res and "already in the plan" in res["messages"]["basics"][0]
-    res = cp.plan_action(ids.PLAN_ADD, form(name="Hold", load_kind="constant"), [], plan, None, TODAY)
+    res = plan_action(ids.PLAN_ADD, form(name="Hold", load_kind="constant"), [], plan, None, TODAY)
     plan = res["plan"]
     # edit the first: the form shows it; saving the changes replaces it in place
-    res = cp.plan_action(ids.PLAN_EDIT, form(), [0], plan, None, TODAY)
+    res = plan_action(ids.PLAN_EDIT, form(), [0], plan, None, TODAY)
     assert res["form"]["name"] == "Scenario 1" and res["editing"]["name"] == "Scenario 1"
     editing = res["editing"]
-    res = cp.plan_action(
+    res = plan_action(
         ids.PLAN_UPDATE, res["form"] | {"cut_percent": "60", "name": "Deep cut"}, [0], plan, editing, 0
     )
     plan = res["plan"]
     assert [s["name"] for s in plan["scenarios"]] == ["Deep cut", "Hold"]
     assert plan["scenarios"][0]["load"]["percent"] == 60.0 and res["editing"]["name"] == "Deep cut"
-    res = cp.plan_action(ids.PLAN_DUPLICATE, form(), [0], plan, res["editing"], TODAY)
+    res = plan_action(ids.PLAN_DUPLICATE, form(), [0], plan, res["editing"], TODAY)
     plan = res["plan"]
     assert [s["name"] for s in plan["scenarios"]] == ["Deep cut", "Deep cut (copy)", "Hold"]
     assert plan["scenarios"][1] | {"name": "Deep cut"} == plan["scenarios"][0]
-    res = cp.plan_action(ids.PLAN_DELETE, form(), [0], plan, {"name": "Deep cut"}, TODAY)
+    res = plan_action(ids.PLAN_DELETE, form(), [0], plan, {"name": "Deep cut"}, TODAY)
     assert [s["name"] for s in res["plan"]["scenarios"]] == ["Deep cut (copy)", "Hold"] and res["editing"] is None
     # nothing selected: a message, nothing changes
-    res = cp.plan_action(ids.PLAN_DELETE, form(), [], plan, None, TODAY)
+    res = plan_action(ids.PLAN_DELETE, form(), [], plan, None, TODAY)
     assert set(res) == {"status"} and "Select a scenario" in res["status"]
 
 
 def test_a_bad_form_never_loses_the_plan() -> None:
     plan, _ = small_plan()
     for trigger, editing in ((ids.PLAN_ADD, None), (ids.PLAN_UPDATE, {"name": "cut"})):
-        res = cp.plan_action(trigger, form(name="new", years="-3"), [0], plan, editing, TODAY)
+        res = plan_action(trigger, form(name="new", years="-3"), [0], plan, editing, TODAY)
         assert "plan" not in res and "unchanged" in res["status"]
         assert res["messages"]["basics"][0].startswith("Horizon must be a whole number")
-    out = cp.action_outputs(cp.plan_action(ids.PLAN_ADD, form(years="x"), [], plan, None, TODAY), None)
+    out = action_outputs(plan_action(ids.PLAN_ADD, form(years="x"), [], plan, None, TODAY), None)
     assert out[0] is no_update  # the store is not written
 
 
 def test_edit_keeps_treatments_beyond_the_form() -> None:
     s = Scenario("many", 20, ConstantLoad(400.0), treatments=(Removal(2, 500.0), Removal(6, 300.0)))
     plan = {"scenarios": [s.to_dict()]}
-    res = cp.plan_action(ids.PLAN_EDIT, form(), [0], plan, None, TODAY)
+    res = plan_action(ids.PLAN_EDIT, form(), [0], plan, None, TODAY)
     assert "1 more treatment" in res["status"]
-    res = cp.plan_action(ids.PLAN_UPDATE, res["form"] | {"years": "25"}, [0], plan, res["editing"], TODAY)
+    res = plan_action(ids.PLAN_UPDATE, res["form"] | {"years": "25"}, [0], plan, res["editing"], TODAY)
     assert Scenario.from_dict(res["plan"]["scenarios"][0]).treatments == s.treatments
 
 
 def test_list_rows_and_free_names() -> None:
     _, scenarios = small_plan()
-    rows = cp.list_rows(scenarios)
+    rows = list_rows(scenarios)
     assert rows[0]["name"] == "cut" and scenarios[0].load.describe() in rows[0]["plan"]
     assert scenarios[1].treatments[0].describe() in rows[1]["plan"] and "200 members, seed 2" in rows[1]["ensemble"]
-    assert cp.free_name(["Scenario 2"]) == "Scenario 3" and cp.free_name([]) == "Scenario 1"
-    assert cp.on_load_kind("table") == [{"display": "none"}, {"display": "none"}, {"display": "none"}, {}]
-    assert cp.on_load_kind("step")[2] == {}
+    assert free_name(["Scenario 2"]) == "Scenario 3" and free_name([]) == "Scenario 1"
+    assert on_load_kind("table") == [{"display": "none"}, {"display": "none"}, {"display": "none"}, {}]
+    assert on_load_kind("step")[2] == {}
 
 
 # --------------------------------------------------------------------------
@@ -256,13 +281,13 @@ def test_run_reports_progress_and_matches_the_model(tmp_path: Path) -> None:
     plan, scenarios = small_plan()
     h = new_history(LAKE)
     progress = Progress()
-    data, msg = cp.run_plan(progress, {"token": "a" * 32}, plan, LAKE, h, folder=tmp_path)
+    data, msg = run_plan(progress, {"token": "a" * 32}, plan, LAKE, h, folder=tmp_path)
     assert msg == "Ran 2 scenarios."
     values = [int(v) for v, _ in progress.seen]
     assert values == sorted(values) and progress.seen[-1] == ("100", "done") and len(values) >= 3
     # the same plan run directly through the model
-    direct = compare_plan(Plan(cp.plan_lake(LAKE, h), tuple(scenarios)))
-    back = cp.comparison_from_store(data)
+    direct = compare_plan(Plan(plan_lake(LAKE, h), tuple(scenarios)))
+    back = comparison_from_store(data)
     for a, b in zip(outcome_rows(back), outcome_rows(direct), strict=True):
         for k in a:
             if isinstance(a[k], float) and b[k] is not None:
@@ -279,16 +304,16 @@ def test_run_reports_progress_and_matches_the_model(tmp_path: Path) -> None:
 
 def test_cancel_keeps_the_previous_results(tmp_path: Path) -> None:
     plan, _ = small_plan()
-    token = cp.new_token(tmp_path)
-    assert cp.request_cancel(tmp_path, token)
+    token = new_token(tmp_path)
+    assert request_cancel(tmp_path, token)
     progress = Progress()
-    data, msg = cp.run_plan(progress, {"token": token}, plan, LAKE, None, folder=tmp_path)
+    data, msg = run_plan(progress, {"token": token}, plan, LAKE, None, folder=tmp_path)
     assert data is no_update and msg.startswith("Cancelled")
     assert progress.seen[-1] == ("0", "cancelled")
     assert not (tmp_path / token).exists()  # the flag is cleared
     # a token that is not ours is never used as a file name
-    assert not cp.request_cancel(tmp_path, "../../etc/passwd")
-    assert cp.cancel_hook(tmp_path, "../x")() is False
+    assert not request_cancel(tmp_path, "../../etc/passwd")
+    assert cancel_hook(tmp_path, "../x")() is False
 
 
 def test_run_of_a_lake_without_folds_says_what_to_fix(tmp_path: Path) -> None:
@@ -296,14 +321,14 @@ def test_run_of_a_lake_without_folds_says_what_to_fix(tmp_path: Path) -> None:
     assert not folds(single)  # a lake with one state at every load (checked with the engine)
     lake = lake_to_store(single, PROF)
     plan, _ = small_plan()
-    data, msg = cp.run_plan(Progress(), {"token": "b" * 32}, plan, lake, None, folder=tmp_path)
+    data, msg = run_plan(Progress(), {"token": "b" * 32}, plan, lake, None, folder=tmp_path)
     assert data is no_update and msg.startswith("Not run: Scenario 'cut': clear_threshold must be a TP")
     assert "previous results are kept" in msg
 
 
 def test_outcome_table_adds_expected_clarity() -> None:
     _, scenarios = small_plan()
-    comp = compare_plan(Plan(cp.plan_lake(LAKE, None), tuple(scenarios)))
+    comp = compare_plan(Plan(plan_lake(LAKE, None), tuple(scenarios)))
     rows = outcome_table(comp.results)
     assert set(rows[0]) == set(TABLE_COLUMNS)
     for row, r in zip(rows, comp.results, strict=True):
@@ -316,20 +341,20 @@ def test_outcome_table_adds_expected_clarity() -> None:
 
 def test_results_render_and_meeting_view_is_larger(tmp_path: Path) -> None:
     plan, _ = small_plan()
-    data, _ = cp.run_plan(Progress(), {"token": "c" * 32}, plan, LAKE, None, folder=tmp_path)
-    columns, table, *figs = cp.on_results(data, [])
+    data, _ = run_plan(Progress(), {"token": "c" * 32}, plan, LAKE, None, folder=tmp_path)
+    columns, table, *figs = on_results(data, [])
     assert [r["scenario"] for r in table] == ["cut", "push"] and len(figs) == 4
-    assert [c["id"] for c in columns] == list(TABLE_COLUMNS)
+    assert [c["field"] for c in columns] == list(TABLE_COLUMNS)
     assert {t.name for t in figs[0].data if t.showlegend is not False} == {"cut", "push"}
-    big_columns, _, *big = cp.on_results(data, ["on"])
+    big_columns, _, *big = on_results(data, ["on"])
     assert big[0].layout.font.size > figs[0].layout.font.size
-    assert [c["id"] for c in big_columns] == list(view_plans.MEETING_COLUMNS)
-    _, empty_table, *blank = cp.on_results(None, [])
+    assert [c["field"] for c in big_columns] == list(MEETING_COLUMNS)
+    _, empty_table, *blank = on_results(None, [])
     assert empty_table == [] and "Run the plan" in blank[0].layout.annotations[0].text
-    note = cp.on_results_note(data, "plans", LAKE, None)
+    note = on_results_note(data, "plans", LAKE, None)
     assert "2 scenarios" in note[0] and len(note) == 1
     moved = dict(new_history(LAKE), p=[3000.0])
-    assert "has changed since this run" in str(cp.on_results_note(data, "plans", LAKE, moved))
+    assert "has changed since this run" in str(on_results_note(data, "plans", LAKE, moved))
 
 
 # --------------------------------------------------------------------------
@@ -337,15 +362,15 @@ def test_results_render_and_meeting_view_is_larger(tmp_path: Path) -> None:
 # --------------------------------------------------------------------------
 def test_precaution_request_checks_and_matches_the_model(tmp_path: Path) -> None:
     plan, scenarios = small_plan()
-    req, msg = cp.on_precaution_request(1, "cut", "20", "0", plan, LAKE, None, folder=tmp_path)
+    req, msg = on_precaution_request(1, "cut", "20", "0", plan, LAKE, None, folder=tmp_path)
     assert req is no_update and msg.startswith("At most (% chance of flipping) must be greater than 0")
-    req, msg = cp.on_precaution_request(1, "cut", "2.5", "5", plan, LAKE, None, folder=tmp_path)
+    req, msg = on_precaution_request(1, "cut", "2.5", "5", plan, LAKE, None, folder=tmp_path)
     assert req is no_update and msg.startswith("Within years must be a whole number")
-    req, msg = cp.on_precaution_request(1, "cut", "20", "5", plan, LAKE, None, folder=tmp_path)
+    req, msg = on_precaution_request(1, "cut", "20", "5", plan, LAKE, None, folder=tmp_path)
     assert msg == "" and req["within_years"] == 20 and req["max_percent"] == 5.0
     progress = Progress()
-    data, _ = cp.run_precaution(progress, req, folder=tmp_path)
-    s, slake = scenarios[0], cp.plan_lake(LAKE, None)
+    data, _ = run_precaution(progress, req, folder=tmp_path)
+    s, slake = scenarios[0], plan_lake(LAKE, None)
     direct = precautionary_load(  # the model's own search with the same ensemble
         slake.params,
         within_years=20,
@@ -358,12 +383,12 @@ def test_precaution_request_checks_and_matches_the_model(tmp_path: Path) -> None
     assert data["result"]["load_kg_per_yr"] == direct.load_kg_per_yr
     assert data["result"]["standard_error_kg_per_yr"] == direct.standard_error_kg_per_yr
     assert progress.seen[-1] == ("done",) and all(len(v) == 1 for v in progress.seen)
-    words = " ".join(str(w) for w in cp.precaution_words(data, TODAY))
+    words = " ".join(str(w) for w in precaution_words(data, TODAY))
     assert f"{direct.load_kg_per_yr:,.0f}" in words and f"± {direct.standard_error_kg_per_yr:,.0f}" in words
     assert "Monte-Carlo error" in words
     # attached to the report of a run of the same lake
-    run, _ = cp.run_plan(Progress(), {"token": "d" * 32}, plan, LAKE, None, folder=tmp_path)
-    html_text = cp.export(ids.PLAN_EXPORT_REPORT, run, data)[0]["content"]
+    run, _ = run_plan(Progress(), {"token": "d" * 32}, plan, LAKE, None, folder=tmp_path)
+    html_text = export(ids.PLAN_EXPORT_REPORT, run, data)[0]["content"]
     assert "Precautionary load [kg/yr]" in html_text and f"{direct.load_kg_per_yr:,.0f}" in html_text
 
 
@@ -372,23 +397,23 @@ def test_precaution_request_checks_and_matches_the_model(tmp_path: Path) -> None
 # --------------------------------------------------------------------------
 def test_save_find_again_and_merge(tmp_path: Path) -> None:
     plan, scenarios = small_plan()
-    assert cp.save_plan("", {"scenarios": []}, LAKE, None, tmp_path).startswith("Nothing to save")
-    msg = cp.save_plan("Options 2030", plan, LAKE, None, tmp_path)
+    assert save_plan("", {"scenarios": []}, LAKE, None, tmp_path).startswith("Nothing to save")
+    msg = save_plan("Options 2030", plan, LAKE, None, tmp_path)
     assert msg.startswith("Saved 2 scenarios as plan 'Options 2030' (save number 1")
     # a new Store on the same folder (as after a restart) finds it
-    options = cp.saved_options(tmp_path)
+    options = saved_options(tmp_path)
     assert [o["value"] for o in options] == ["Options 2030"] and "2 scenarios" in options[0]["label"]
     with Store(tmp_path) as st:
         saved = st.load_plan("Options 2030")
     assert [s.to_dict() for s in saved.scenarios] == [s.to_dict() for s in scenarios]
-    assert saved.lake.initial_p_kg == pytest.approx(cp.current_state(LAKE, None)[0])
+    assert saved.lake.initial_p_kg == pytest.approx(state_now(LAKE, None)[0])
     # loading into a plan that already holds one of them, and a changed one of the other
     changed = replace_name_cv(scenarios[1], 0.5)
-    data, msg = cp.on_load_saved(1, "Options 2030", {"scenarios": [scenarios[0].to_dict(), changed]}, data_dir=tmp_path)
+    data, msg = on_load_saved(1, "Options 2030", {"scenarios": [scenarios[0].to_dict(), changed]}, data_dir=tmp_path)
     names = [s["name"] for s in data["scenarios"]]
     assert names == ["cut", "push", "push (saved)"] and "1 was already in it" in msg
-    assert cp.on_load_saved(1, "nope", plan, data_dir=tmp_path)[0] is no_update
-    details = cp.on_saved_select("Options 2030", LAKE, None, data_dir=tmp_path)
+    assert on_load_saved(1, "nope", plan, data_dir=tmp_path)[0] is no_update
+    details = on_saved_select("Options 2030", LAKE, None, data_dir=tmp_path)
     assert "cut, push" in details and "differs" not in details
 
 
@@ -405,7 +430,7 @@ def test_two_sessions_saving_at_once_lose_nothing(tmp_path: Path) -> None:
     def save(plan: dict[str, Any]) -> None:
         barrier.wait()
         for _ in range(5):
-            messages.append(cp.save_plan("Shared", plan, LAKE, None, tmp_path))
+            messages.append(save_plan("Shared", plan, LAKE, None, tmp_path))
 
     threads = [threading.Thread(target=save, args=(p,)) for p in (plan_a, plan_b)]
     for t in threads:
@@ -423,7 +448,7 @@ def test_saving_into_an_unusable_folder_keeps_the_plan(tmp_path: Path) -> None:
     plan, _ = small_plan()
     blocker = tmp_path / "a-file"
     blocker.write_text("not a folder")
-    msg = cp.save_plan("x", plan, LAKE, None, blocker)
+    msg = save_plan("x", plan, LAKE, None, blocker)
     assert msg.startswith("Not saved:") and msg.endswith("Your scenarios are still here.")
 
 
@@ -432,19 +457,19 @@ def test_saving_into_an_unusable_folder_keeps_the_plan(tmp_path: Path) -> None:
 # --------------------------------------------------------------------------
 def test_exports(tmp_path: Path) -> None:
     plan, _ = small_plan()
-    assert cp.export(ids.PLAN_EXPORT_REPORT, None, None)[1].startswith("Run the plan first")
-    data, _ = cp.run_plan(Progress(), {"token": "e" * 32}, plan, LAKE, None, folder=tmp_path)
-    report, _ = cp.export(ids.PLAN_EXPORT_REPORT, data, None)
+    assert export(ids.PLAN_EXPORT_REPORT, None, None)[1].startswith("Run the plan first")
+    data, _ = run_plan(Progress(), {"token": "e" * 32}, plan, LAKE, None, folder=tmp_path)
+    report, _ = export(ids.PLAN_EXPORT_REPORT, data, None)
     text = report["content"]
     assert report["filename"] == "turnback-lake-amberlin-fictional-report.html"
     for caution in CAUTIONS:
         assert html.escape(caution) in text
     # offline: plotly inline, no external script (common practice, no source)
     assert re.search(r"<script[^>]+src=", text) is None and "plotly.js" in text.lower()
-    traj, _ = cp.export(ids.PLAN_EXPORT_TRAJECTORIES, data, None)
+    traj, _ = export(ids.PLAN_EXPORT_TRAJECTORIES, data, None)
     rows = list(csv.reader(io.StringIO(traj["content"])))
     assert rows[0][:3] == ["scenario", "year", "load_kg_per_yr"] and len(rows) == 1 + 2 * 31
-    table, _ = cp.export(ids.PLAN_EXPORT_TABLE, data, None)
+    table, _ = export(ids.PLAN_EXPORT_TABLE, data, None)
     rows = list(csv.reader(io.StringIO(table["content"])))
     assert rows[0] == list(TABLE_COLUMNS) and [r[0] for r in rows[1:]] == ["cut", "push"]
 
@@ -455,14 +480,14 @@ def test_view_layout_ids_and_columns() -> None:
         assert f"'{i}'" in text, i
     assert "permits" in view_plans.TREATMENT_CAUTION and "licensed" in view_plans.TREATMENT_CAUTION
     assert "safe to swim" not in text.lower()
-    assert [c["id"] for c in view_plans.table_columns()] == list(TABLE_COLUMNS)
-    for key, value in cp.FORM_DEFAULTS.items():  # the layout starts with the documented defaults
+    assert [c["field"] for c in table_columns()] == list(TABLE_COLUMNS)
+    for key, value in FORM_DEFAULTS.items():  # the layout starts with the documented defaults
         assert f"'{ids.PLAN_FORM[key]}'" in text and (value == "" or repr(value) in text)
 
 
 def test_view_figure_meeting_is_larger() -> None:
     _, scenarios = small_plan()
-    comp = compare_plan(Plan(cp.plan_lake(LAKE, None), tuple(scenarios[:1])))
+    comp = compare_plan(Plan(plan_lake(LAKE, None), tuple(scenarios[:1])))
     small = result_figures(comp.results)["trajectory"]
     big = view_figure(result_figures(comp.results)["trajectory"], meeting=True)
     assert big.layout.font.size > small.layout.font.size and big.layout.height > small.layout.height

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from dash import dcc, html
 
-from . import ids
-from .layout_parts import graph_config
+from ... import ids
+from ...theme import graph_config
 
 
 def build_view() -> list[html.Div]:

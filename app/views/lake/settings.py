@@ -11,7 +11,7 @@ from typing import Any
 
 from turnback.model.params import LakeParameters, LakeProfile
 
-from .session import Lake, lake_to_store
+from ...stores import LakeStore, lake_to_store
 
 #: field -> (label, unit, lower bound, upper bound, lower inclusive)
 FIELD_RULES: dict[str, tuple[str, str, float, float, bool]] = {
@@ -47,7 +47,7 @@ def _parse(name: str, raw: Any) -> tuple[float | None, str]:
     return v, ""
 
 
-def check_settings(values: dict[str, Any], name: str) -> tuple[Lake | None, dict[str, str]]:
+def check_settings(values: dict[str, Any], name: str) -> tuple[LakeStore | None, dict[str, str]]:
     """Parse the settings; return the new lake (or None) and a message per field ('' when fine)."""
     parsed: dict[str, float] = {}
     messages: dict[str, str] = {}

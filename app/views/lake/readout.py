@@ -1,4 +1,4 @@
-"""The readout: the lake's state and thresholds in plain words.  Layout only."""
+"""The readout of the lake view: the lake's state and thresholds in plain words.  Layout only."""
 
 from __future__ import annotations
 
@@ -9,7 +9,7 @@ from turnback.model.clarity import TP_MAX_UG_L, TP_MIN_UG_L, clarity
 from turnback.model.equilibrium import LakeAnalysis, read_state, removal_needed, safety_margin
 from turnback.model.params import LakeParameters, LakeProfile
 
-from . import ids
+from ... import ids
 
 STATE_WORDS = {
     "clear": ("Clear water", "state-clear"),

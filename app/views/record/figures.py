@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
@@ -10,13 +11,13 @@ from plotly.subplots import make_subplots
 from turnback.model.clarity import expected_chl, expected_secchi
 from turnback.model.early_warning import EarlyWarning
 
-from .figures import CLEAR, HISTORY, TODAY, TURBID
+from ...theme import CLEAR, HISTORY, TODAY, TURBID, sizes
 
 
 def _base(fig: go.Figure, height: int, meeting: bool) -> go.Figure:
     fig.update_layout(
         template="plotly_white",
-        font={"size": 20 if meeting else 14},
+        font={"size": sizes(meeting).text},
         height=height,
         margin={"l": 80, "r": 20, "t": 30, "b": 50},
         legend={"orientation": "h", "yanchor": "bottom", "y": 1.01, "x": 0.0},
@@ -24,7 +25,7 @@ def _base(fig: go.Figure, height: int, meeting: bool) -> go.Figure:
     return fig
 
 
-def record_figure(record: dict[str, Any], *, meeting: bool = False) -> go.Figure:
+def record_figure(record: Mapping[str, Any], *, meeting: bool = False) -> go.Figure:
     """Observed lake TP [µg L⁻¹] and external load [kg yr⁻¹] by year."""
     fig = make_subplots(rows=2, cols=1, shared_xaxes=True, row_heights=[0.6, 0.4], vertical_spacing=0.07)
     fig.add_trace(
@@ -57,7 +58,7 @@ def record_figure(record: dict[str, Any], *, meeting: bool = False) -> go.Figure
     return _base(fig, 430, meeting)
 
 
-def clarity_figure(record: dict[str, Any], *, meeting: bool = False) -> go.Figure:
+def clarity_figure(record: Mapping[str, Any], *, meeting: bool = False) -> go.Figure:
     """Observed Secchi depth and chlorophyll-a against those expected from observed TP (Carlson 1977)."""
     years = np.asarray(record["year"])
     tp = np.asarray(record["tp_ug_l"], dtype=float)

@@ -1,0 +1,78 @@
+"""Look of the dashboard: the palette, the figures' modebar, and the meeting view's sizes.
+
+Pure constants and small functions; no callbacks, no layout.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+# our palette
+CLEAR = "#1f6fa8"  # clear-water branch
+TURBID = "#7a8f1c"  # turbid, algae-dominated branch
+SEPARATRIX = "#7d7d7d"
+FOLD = "#2d2d2d"
+BISTABLE = "rgba(232, 180, 60, 0.17)"
+HISTORY = "#b5462f"
+CURRENT = "#e0701a"
+TODAY = "#5b4a8a"
+OBSERVED = "rgba(40,40,40,0.55)"
+
+#: background of each regime on the regime map
+REGIME_FILL = {
+    "reversible": "rgba(31, 111, 168, 0.07)",
+    "hysteretic": "rgba(232, 180, 60, 0.10)",
+    "irreversible": "rgba(163, 58, 31, 0.08)",
+}
+
+#: the load axis of the equilibrium figure and the regime map: (plain words, technical)
+LOAD_AXIS = ("Phosphorus flowing in each year (kg)", "External P load L [kg yr⁻¹]")
+
+
+def load_axis_title(meeting: bool) -> str:
+    return LOAD_AXIS[0] if meeting else LOAD_AXIS[1]
+
+
+def graph_config(filename: str) -> Any:
+    """Plotly config: the modebar keeps its image download (PNG at twice the size)."""
+    return {
+        "displaylogo": False,
+        "toImageButtonOptions": {"format": "png", "scale": 2, "filename": filename},
+        "modeBarButtonsToRemove": ["lasso2d", "select2d"],
+    }
+
+
+def is_meeting(toggle_value: list[str] | None) -> bool:
+    """Whether the meeting-view checklist is ticked."""
+    return "on" in (toggle_value or [])
+
+
+@dataclass(frozen=True)
+class Sizes:
+    """Text and line sizes of the figures, larger in the meeting view."""
+
+    font: int  # the lake view's figures [px]
+    line: int  # line width [px]
+    marker: int  # marker size [px]
+    text: int  # the record and plans views' figures [px]
+
+
+NORMAL = Sizes(font=15, line=3, marker=14, text=14)
+MEETING = Sizes(font=22, line=5, marker=20, text=20)
+
+#: figure heights [px]: figure -> (normal, meeting view)
+HEIGHTS = {
+    "equilibrium": (500, 600),
+    "time": (360, 420),
+    "map": (540, 620),
+    "plan": (400, 520),
+}
+
+
+def sizes(meeting: bool) -> Sizes:
+    return MEETING if meeting else NORMAL
+
+
+def height(figure: str, meeting: bool) -> int:
+    return HEIGHTS[figure][1 if meeting else 0]

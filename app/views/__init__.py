@@ -1,0 +1,1 @@
+"""The dashboard's views, one package each: layout, callbacks and figures (plus helpers)."""

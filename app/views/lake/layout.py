@@ -1,0 +1,169 @@
+"""Layout of the lake view: the load, the figures, the readout, in-lake removal and the settings."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from dash import dcc, html
+from turnback.model.equilibrium import LakeAnalysis
+from turnback.model.params import LakeParameters, LakeProfile
+
+from ... import ids
+from ...theme import TODAY, graph_config
+from .settings import FIELD_RULES
+
+TREATMENT_CAUTION = (
+    "Caution: chemical in-lake treatments (for example alum or other P binders, or dredging) need permits "
+    "from the responsible authority and must be designed and applied by licensed practitioners. "
+    "This tool only estimates the P mass involved."
+)
+
+
+def slider_config(analysis: LakeAnalysis, profile: LakeProfile) -> dict[str, Any]:
+    """Slider max, step and marks: 0 to about twice the tipping load, with today's load marked."""
+    if analysis.tipping_load is not None:
+        top = 2.0 * analysis.tipping_load
+    else:
+        top = 2.0 * max(profile.load_kg_per_yr, float(analysis.curve.load.max()) / 2.0)
+    top = max(top, 1.2 * profile.load_kg_per_yr, 1e-6)
+    step = 10.0 ** math.floor(math.log10(top / 500.0))
+    top = math.ceil(top / step) * step
+    marks: dict[float, Any] = {0: "0", top: f"{top:,.0f}"}
+    marks[profile.load_kg_per_yr] = {
+        "label": f"today {profile.load_kg_per_yr:,.0f}",
+        "style": {"color": TODAY, "fontWeight": "600"},
+    }
+    if analysis.tipping_load is not None:
+        marks[analysis.tipping_load] = {"label": "tipping", "style": {"color": "#2d2d2d"}}
+    if analysis.recovery_load is not None and analysis.recovery_load > 0:
+        marks[analysis.recovery_load] = {"label": "recovery", "style": {"color": "#2d2d2d"}}
+    return {"max": top, "step": step, "marks": marks}
+
+
+def _field(name: str, value: float) -> html.Div:
+    label, unit, *_ = FIELD_RULES[name]
+    input_id, message_id = ids.FIELDS[name]
+    return html.Div(
+        [
+            html.Label(f"{label}" + (f" [{unit}]" if unit else ""), htmlFor=input_id),
+            dcc.Input(
+                id=input_id,
+                type="text",
+                value=f"{value:g}",
+                debounce=True,
+                persistence=True,
+                persistence_type="session",
+                className="field-input",
+            ),
+            html.Div(id=message_id, className="field-message", role="alert"),
+        ],
+        className="field",
+    )
+
+
+def settings_panel(params: LakeParameters, profile: LakeProfile) -> html.Details:
+    values = params.to_dict() | {
+        "area_km2": profile.area_km2,
+        "mean_depth_m": profile.mean_depth_m,
+        "load_kg_yr": profile.load_kg_per_yr,
+    }
+    return html.Details(
+        [
+            html.Summary("Lake and model settings"),
+            html.P(
+                "Model: P[t+1] = P[t] + L − s·P[t] + r·P[t]^q / (m^q + P[t]^q), one step a year. "
+                "Press Enter or leave a field to apply it; "
+                "a wrong value is reported here and the last good lake stays.",
+                className="hint",
+            ),
+            html.Div([_field(name, values[name]) for name in FIELD_RULES], className="field-grid"),
+            html.Div(id=ids.SETTINGS_STATUS, className="settings-status"),
+        ],
+        id=ids.SETTINGS_PANEL,
+        open=True,
+        className="card settings",
+    )
+
+
+def _readout_card() -> html.Div:
+    return html.Div(
+        [html.H2("What the lake is doing"), html.Div(id=ids.READOUT, className="readout")], className="card"
+    )
+
+
+def _removal_card() -> html.Div:
+    return html.Div(
+        [
+            html.H2("Take phosphorus out of the lake"),
+            html.Div(id=ids.REMOVAL_NEEDED, className="readout-row"),
+            html.Div(
+                [
+                    html.Label("P to remove [kg]", htmlFor=ids.REMOVAL_INPUT),
+                    dcc.Input(id=ids.REMOVAL_INPUT, type="number", min=0, value=0, className="removal-input"),
+                    html.Button("Remove it now", id=ids.REMOVAL_BUTTON, n_clicks=0),
+                ],
+                className="control-row",
+            ),
+            html.Div(id=ids.REMOVAL_MESSAGE, className="field-message", role="alert"),
+            html.P(TREATMENT_CAUTION, className="treatment-caution"),
+        ],
+        className="card",
+    )
+
+
+def _load_card(profile: LakeProfile) -> html.Div:
+    return html.Div(
+        [
+            html.H2("Phosphorus load"),
+            html.P("Drag, use the arrow keys, or type a value (kg P per year).", className="hint"),
+            dcc.Slider(
+                id=ids.LOAD_SLIDER,
+                min=0,
+                max=1,
+                value=profile.load_kg_per_yr,
+                updatemode="mouseup",
+                className="load-slider",
+            ),
+            html.Div(
+                [
+                    html.Label("Years per change", htmlFor=ids.YEARS_INPUT),
+                    dcc.Input(
+                        id=ids.YEARS_INPUT,
+                        type="number",
+                        min=1,
+                        max=200,
+                        step=1,
+                        value=5,
+                        debounce=True,
+                        className="years-input",
+                    ),
+                    html.Button("Let the years pass", id=ids.WAIT_BUTTON, n_clicks=0),
+                    html.Button("Start the history again", id=ids.RESET_BUTTON, n_clicks=0, className="secondary"),
+                ],
+                className="control-row",
+            ),
+            html.Div(id=ids.YEARS_MESSAGE, className="field-message", role="alert"),
+        ],
+        className="card",
+    )
+
+
+def build_view(params: LakeParameters, profile: LakeProfile) -> list[Any]:
+    return [
+        html.Main(
+            [
+                html.Section([_readout_card(), _removal_card()], className="controls"),
+                html.Section(
+                    [
+                        _load_card(profile),
+                        dcc.Graph(id=ids.EQUILIBRIUM_GRAPH, config=graph_config("turnback-equilibria")),
+                        dcc.Graph(id=ids.TIME_GRAPH, config=graph_config("turnback-history")),
+                    ],
+                    className="figures",
+                ),
+            ],
+            className="main-grid",
+        ),
+        settings_panel(params, profile),
+    ]

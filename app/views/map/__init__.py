@@ -1,0 +1,1 @@
+"""Regime map: the lake in the (load, parameter) plane, with the fitted cloud."""

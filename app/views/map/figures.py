@@ -1,0 +1,128 @@
+"""Figure builder of the regime map view: a :class:`model.regime_map.RegimeMap` in, ``go.Figure`` out."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+import plotly.graph_objects as go
+from turnback.model.regime_map import RegimeMap
+
+from ...theme import BISTABLE, CLEAR, CURRENT, FOLD, REGIME_FILL, TURBID, height, load_axis_title, sizes
+
+
+def regime_map_figure(
+    rmap: RegimeMap,
+    *,
+    load_now: float,
+    cloud: tuple[Sequence[float], Sequence[float]] | None = None,
+    meeting: bool = False,
+) -> go.Figure:
+    """The (load, parameter) plane: regime bands, fold curves, the bistable wedge, the lake and its fitted cloud."""
+    sz = sizes(meeting)
+    sty = {"font": sz.font, "line": sz.line, "marker": sz.marker}
+    axis_title = {
+        "loss_rate": "Loss rate s [yr⁻¹]" if not meeting else "How fast the lake loses phosphorus (per year)",
+        "recycling_max": "Maximum recycling r [kg yr⁻¹]" if not meeting else "Phosphorus released from mud (kg/yr)",
+    }[rmap.axis]
+    fig = go.Figure()
+    lo_p, hi_p = rmap.parameter_range
+    loads = np.concatenate([rmap.tipping.load, rmap.recovery.load, [load_now, 0.0]])
+    x_hi = max(float(np.nanmax(loads)), load_now) * 1.15
+    x_lo = max(min(0.0, float(np.nanmin(loads))) * 1.05, -0.6 * x_hi)
+    for reg, b_lo, b_hi in rmap.bands:
+        fig.add_hrect(
+            y0=b_lo,
+            y1=b_hi,
+            fillcolor=REGIME_FILL[reg],
+            line_width=0,
+            layer="below",
+            annotation_text=reg,
+            annotation_position="top right",
+            annotation_font={"size": sty["font"] - 2, "color": "#444"},
+        )
+    if x_lo < 0:
+        fig.add_vrect(
+            x0=x_lo,
+            x1=0.0,
+            fillcolor="rgba(120,120,120,0.12)",
+            line_width=0,
+            layer="below",
+            annotation_text="below zero load",
+            annotation_position="bottom left",
+            annotation_font={"size": sty["font"] - 4, "color": "#555"},
+        )
+    fig.add_trace(
+        go.Scatter(
+            x=rmap.fold_load,
+            y=rmap.fold_parameter,
+            mode="lines",
+            fill="toself",
+            fillcolor=BISTABLE,
+            line={"color": "rgba(0,0,0,0)"},
+            hoverinfo="skip",
+            name="two stable states",
+            showlegend=True,
+        )
+    )
+    fig.add_trace(
+        go.Scatter(
+            x=rmap.tipping.load,
+            y=rmap.tipping.parameter,
+            mode="lines",
+            name="tipping fold",
+            line={"color": CLEAR, "width": sty["line"]},
+            hovertemplate="tipping fold: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
+        )
+    )
+    fig.add_trace(
+        go.Scatter(
+            x=rmap.recovery.load,
+            y=rmap.recovery.parameter,
+            mode="lines",
+            name="recovery fold",
+            line={"color": TURBID, "width": sty["line"]},
+            hovertemplate="recovery fold: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
+        )
+    )
+    if rmap.cusp is not None and lo_p <= rmap.cusp.parameter <= hi_p:
+        fig.add_trace(
+            go.Scatter(
+                x=[rmap.cusp.load],
+                y=[rmap.cusp.parameter],
+                mode="markers",
+                name="cusp",
+                marker={"symbol": "diamond", "size": sty["marker"], "color": FOLD},
+            )
+        )
+    if cloud is not None and len(cloud[0]):
+        fig.add_trace(
+            go.Scatter(
+                x=list(cloud[0]),
+                y=list(cloud[1]),
+                mode="markers",
+                name="fitted lakes (bootstrap)",
+                marker={"size": 4, "color": "rgba(91, 74, 138, 0.35)"},
+                hoverinfo="skip",
+            )
+        )
+    fig.add_trace(
+        go.Scatter(
+            x=[load_now],
+            y=[rmap.lake_parameter],
+            mode="markers",
+            name="this lake now",
+            marker={"size": sty["marker"] * 1.4, "color": CURRENT, "line": {"color": "white", "width": 2}},
+            hovertemplate="this lake: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
+        )
+    )
+    fig.update_layout(
+        template="plotly_white",
+        font={"size": sty["font"]},
+        height=height("map", meeting),
+        margin={"l": 80, "r": 20, "t": 40, "b": 60},
+        xaxis={"title": load_axis_title(meeting), "range": [x_lo, x_hi]},
+        yaxis={"title": axis_title, "range": [lo_p, hi_p]},
+        legend={"orientation": "h", "yanchor": "bottom", "y": 1.01, "x": 0.0},
+    )
+    return fig

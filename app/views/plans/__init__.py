@@ -1,0 +1,1 @@
+"""Plans compared: build scenarios for the current lake, run them, compare, save and export."""

@@ -1,0 +1,104 @@
+"""The plans view in words: the lake the plan is for, the last run, the precautionary load.  Layout only."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+from dash import html
+from turnback.model.equilibrium import folds
+from turnback.model.plan import ScenarioLake
+
+from ... import ids
+from ...stores import lake_from_store, same_lake, state_now
+
+
+def plan_lake(lake: Mapping[str, Any], history: Mapping[str, Any] | None, name: str | None = None) -> ScenarioLake:
+    """The current lake as a :class:`ScenarioLake` starting at its state now (ValueError if the map cannot run it)."""
+    params, profile = lake_from_store(lake)
+    p, _, _ = state_now(lake, history)
+    return ScenarioLake(params, profile.volume_m3, float(profile.concentration(p)), name=name or profile.name)
+
+
+def lake_words(lake: ScenarioLake) -> str:
+    p = lake.params
+    return (
+        f"loss rate {p.s:g}/yr, maximum recycling {p.r:,.6g} kg/yr, half-saturation {p.m:,.6g} kg, exponent {p.q:g}, "
+        f"volume {lake.volume_m3:.4g} m³, starting TP {lake.initial_tp_ug_l:.1f} µg/L"
+    )
+
+
+def lake_note(lake: Mapping[str, Any], history: Mapping[str, Any] | None) -> list[Any]:
+    """Which lake the plan is for and where its scenarios start."""
+    params, profile = lake_from_store(lake)
+    p, load, year = state_now(lake, history)
+    tp = float(profile.concentration(p))
+    where = "the lake's state now in 'The lake now'" + (f" (year {year})" if year is not None else "")
+    if year is None:
+        where = "its clear equilibrium at today's load"
+    fs = folds(params)
+    fold_text = f" Tipping load {fs[0].load:,.0f} kg/yr, recovery load {max(fs[1].load, 0):,.0f} kg/yr." if fs else ""
+    return [
+        html.B(profile.name),
+        f": scenarios start at TP {tp:.1f} µg/L ({p:,.0f} kg P), {where}, with the load now {load:,.0f} kg/yr."
+        + fold_text,
+    ]
+
+
+def results_note(data: Mapping[str, Any], current: Mapping[str, Any] | None) -> list[Any]:
+    lake = ScenarioLake.from_dict(data["lake"])
+    n = len(data["results"])
+    text = (
+        f"Run of {data['run_at']}: {n} scenario{'s' if n != 1 else ''} for {lake.name}, starting at TP "
+        f"{lake.initial_tp_ug_l:.1f} µg/L; the lake is {data['regime']}"
+    )
+    if data.get("tipping") is not None:
+        text += f" (tipping load {data['tipping']:,.0f} kg/yr, recovery load {max(data['recovery'], 0):,.0f} kg/yr)"
+    out: list[Any] = [text + "."]
+    if current is not None and not same_lake(current, data["lake"]):
+        out.append(
+            html.Div(
+                "The lake or its state has changed since this run: run the plan again for the lake as it is now.",
+                className="readout-warning",
+            )
+        )
+    return out
+
+
+def precaution_words(data: Mapping[str, Any], load_now: float | None = None) -> list[Any]:
+    """The precautionary load in words, with its Monte-Carlo error."""
+    r = data["result"]
+    n, x = data["within_years"], data["max_percent"]
+    head = f"Under {data['scenario']!r} ({data['variability']}), at most {x:g}% chance of flipping within {n} years"
+    if r["status"] == "none":
+        return [html.Div(f"{head}: no sustained load meets this limit — {r['message']}.", className="readout-warning")]
+    load = r["load_kg_per_yr"]
+    if r["status"] == "no_variability":
+        body = (
+            f"{head}: without variability the clear state holds up to {load:,.0f} kg/yr (the top of the clear range), "
+            "with no Monte-Carlo error."
+        )
+    else:
+        se = r["standard_error_kg_per_yr"]
+        err = (
+            f" ± {se:,.0f} kg/yr (Monte-Carlo error, one standard error)"
+            if se is not None
+            else (" (Monte-Carlo error not available: the chance of flipping barely changes with the load there)")
+        )
+        body = f"{head}: a sustained load of at most {load:,.0f}{err}"
+        if r["probability"] is not None:
+            body += f"; chance of flipping there {100 * r['probability']:.1f}% of {r['members']:,} members"
+        body += "."
+    out: list[Any] = [html.Div(body, className="readout-row", id=ids.PLAN_PREC_ANSWER)]
+    if load_now is not None and load is not None:
+        if load_now > load:
+            out.append(
+                html.Div(
+                    f"The load now, {load_now:,.0f} kg/yr, is above it: a cut of "
+                    f"{100 * (1 - load / load_now):.0f}% would meet the limit.",
+                    className="readout-row",
+                )
+            )
+        else:
+            out.append(html.Div(f"The load now, {load_now:,.0f} kg/yr, is below it.", className="readout-row"))
+    return out

@@ -1,0 +1,156 @@
+"""Callbacks of the monitoring-record view: upload, fit (in the background), warning signs."""
+
+from __future__ import annotations
+
+import base64
+import binascii
+from collections.abc import Mapping
+from typing import Any
+
+from dash import Dash, Input, Output, State, html, no_update
+from turnback.model.early_warning import early_warning
+from turnback.model.fit import fit_monitoring
+from turnback.model.io.monitoring_csv import MonitoringError, parse_monitoring
+
+from ... import ids
+from ...background import ProgressReporter, SetProgress
+from ...stores import lake_from_store, record_to_store, series_from_store
+from ...theme import is_meeting
+from .figures import clarity_figure, record_figure, warning_figure
+from .fit import FIT_SEED, fit_summary, fit_to_stores, parse_replicates, parse_volume
+
+
+def on_upload(contents: str | None, filename: str | None) -> tuple[Any, str]:
+    """Read an uploaded CSV; a bad file gets a message and the record on show stays."""
+    if not contents:
+        return no_update, ""
+    name = filename or "the file"
+    try:
+        _, b64 = contents.split(",", 1)
+        raw = base64.b64decode(b64, validate=True)
+    except (ValueError, binascii.Error):
+        return no_update, f"{name}: the upload could not be read; choose the file again."
+    try:
+        series = parse_monitoring(raw)
+    except MonitoringError as exc:
+        return no_update, f"{name} was not loaded, and the record on show is unchanged. {exc}"
+    return record_to_store(series, name), ""
+
+
+def record_summary(record: Mapping[str, Any]) -> str:
+    n = len(record["year"])
+    extra = [c for c in ("secchi_m", "chl_ug_l") if record.get(c) is not None]
+    return (
+        f"On show: {record['name']}, {n} years ({record['year'][0]}–{record['year'][-1]}), "
+        f"TP {min(record['tp_ug_l']):.0f}–{max(record['tp_ug_l']):.0f} µg/L, "
+        f"load {min(record['load_kg']):.0f}–{max(record['load_kg']):.0f} kg/yr"
+        + (f"; also {', '.join(extra)}." if extra else ".")
+    )
+
+
+def warning_signs(record: Mapping[str, Any], meeting: bool) -> tuple[list[html.Div], Any]:
+    """The warning-sign words and figure of the record (a message and no figure when they cannot be computed)."""
+    try:
+        ew = early_warning(record["tp_ug_l"], record["year"], n_surrogates=500, rng=FIT_SEED)
+    except ValueError as exc:
+        return [html.Div(f"No warning signs computed: {exc}", className="readout-row")], {}
+    words = [html.Div(i.summary, className="readout-row") for i in ew.indicators]
+    words += [html.Div(note, className="hint") for note in ew.notes]
+    return words, warning_figure(ew, meeting=meeting)
+
+
+def on_record(
+    record: Mapping[str, Any] | None, lake: Mapping[str, Any], meeting_value: list[str] | None
+) -> dict[str, Any]:
+    """Figures, warning signs and summary of the record on show."""
+    _, profile = lake_from_store(lake)
+    volume = f"{profile.volume_m3:.6g}"
+    if not record:
+        return {
+            "summary": "No record loaded yet.",
+            "record": {},
+            "clarity": {},
+            "warning": {},
+            "words": "",
+            "volume": volume,
+        }
+    meeting = is_meeting(meeting_value)
+    words, wfig = warning_signs(record, meeting)
+    return {
+        "summary": record_summary(record),
+        "record": record_figure(record, meeting=meeting),
+        "clarity": clarity_figure(record, meeting=meeting),
+        "warning": wfig,
+        "words": words,
+        "volume": volume,
+    }
+
+
+def run_fit(
+    set_progress: SetProgress, clicks: int, record: Any, volume_text: Any, replicates: Any, lake: Any
+) -> tuple[Any, Any, Any, str]:
+    """Fit the annual model to the record with a bootstrap; runs as a background callback."""
+    if not record:
+        return no_update, no_update, no_update, "Load a monitoring record first."
+    volume, msg = parse_volume(volume_text)
+    n_rep, rep_msg = parse_replicates(replicates)
+    if volume is None or n_rep is None:
+        return no_update, no_update, no_update, msg or rep_msg
+    progress = ProgressReporter(set_progress)
+    try:
+        result = fit_monitoring(
+            series_from_store(record), volume, replicates=n_rep, rng=FIT_SEED, progress=progress.fraction
+        )
+    except ValueError as exc:
+        return no_update, no_update, no_update, f"The fit could not be made: {exc}"
+    new_lake, fit = fit_to_stores(result, record, lake, volume)
+    progress.show(100, "done")
+    return fit, new_lake, fit_summary(dict(fit)), ""
+
+
+def register(app: Dash) -> None:
+    app.callback(
+        output=[Output(ids.RECORD_STORE, "data"), Output(ids.RECORD_MESSAGE, "children")],
+        inputs={"contents": Input(ids.RECORD_UPLOAD, "contents")},
+        state={"filename": State(ids.RECORD_UPLOAD, "filename")},
+        prevent_initial_call=True,
+    )(on_upload)
+    app.callback(
+        output={
+            "summary": Output(ids.RECORD_SUMMARY, "children"),
+            "record": Output(ids.RECORD_GRAPH, "figure"),
+            "clarity": Output(ids.RECORD_CLARITY_GRAPH, "figure"),
+            "warning": Output(ids.WARNING_GRAPH, "figure"),
+            "words": Output(ids.WARNING_WORDS, "children"),
+            "volume": Output(ids.RECORD_VOLUME, "value"),
+        },
+        inputs={
+            "record": Input(ids.RECORD_STORE, "data"),
+            "lake": Input(ids.LAKE_STORE, "data"),
+            "meeting_value": Input(ids.MEETING_TOGGLE, "value"),
+        },
+    )(on_record)
+    app.callback(
+        output=[
+            Output(ids.FIT_STORE, "data"),
+            Output(ids.LAKE_STORE, "data", allow_duplicate=True),
+            Output(ids.RECORD_FIT_RESULT, "children"),
+            Output(ids.RECORD_MESSAGE, "children", allow_duplicate=True),
+        ],
+        inputs={"clicks": Input(ids.RECORD_FIT_BUTTON, "n_clicks")},
+        state={
+            "record": State(ids.RECORD_STORE, "data"),
+            "volume_text": State(ids.RECORD_VOLUME, "value"),
+            "replicates": State(ids.RECORD_REPLICATES, "value"),
+            "lake": State(ids.LAKE_STORE, "data"),
+        },
+        background=True,
+        progress=[Output(ids.RECORD_PROGRESS, "value"), Output(ids.RECORD_PROGRESS_TEXT, "children")],
+        running=[
+            (Output(ids.RECORD_FIT_BUTTON, "disabled"), True, False),
+            (Output(ids.RECORD_CANCEL_BUTTON, "disabled"), False, True),
+        ],
+        cancel=[Input(ids.RECORD_CANCEL_BUTTON, "n_clicks")],
+        interval=300,
+        prevent_initial_call=True,
+    )(run_fit)
