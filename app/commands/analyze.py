@@ -7,8 +7,9 @@ import math
 from typing import Any
 
 from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
-from turnback.model.equilibrium import LakeAnalysis, analyze, removal_needed, safety_margin
+from turnback.model.equilibrium import LakeAnalysis, analyze
 from turnback.model.io.lake_file import load_profile_file
+from turnback.model.management import removal_needed, safety_margin
 from turnback.model.params import MAX_VALUE, LakeParameters, LakeProfile
 
 from ._shared import number, print_json

@@ -137,3 +137,23 @@ def test_the_pure_core_does_no_file_environment_or_database_access(name: str) ->
 def test_a_planted_file_access_in_the_core_is_found() -> None:
     planted = "import os\nfrom pathlib import Path\nfrom .io.store import Store\nopen('x')\n"
     assert len(_core_violations("turnback.model.units", planted)) == 4
+
+
+#: A module longer than this holds more than one concern (DEVELOPERS.md); split it along its seams.
+MAX_MODULE_LINES = 600
+
+
+def test_no_module_is_over_the_size_limit() -> None:
+    long = {
+        name: n
+        for name, path in MODULES.items()
+        if (n := len(path.read_text(encoding="utf-8").splitlines())) > MAX_MODULE_LINES
+    }
+    assert long == {}
+
+
+def test_each_view_folder_holds_its_layout_callbacks_and_figures() -> None:
+    views = [p for p in (ROOT / "app" / "views").iterdir() if (p / "__init__.py").exists()]
+    assert {p.name for p in views} >= {"lake", "record", "plans", "map"}
+    for folder in views:
+        assert {"layout.py", "callbacks.py", "figures.py"} <= {f.name for f in folder.glob("*.py")}, folder.name

@@ -8,16 +8,8 @@ import math
 import numpy as np
 import pytest
 import sympy as sp
-from turnback.model.equilibrium import (
-    analyze,
-    cusp_b,
-    equilibria,
-    folds,
-    irreversible_b,
-    regime,
-    removal_needed,
-    safety_margin,
-)
+from turnback.model.equilibrium import analyze, cusp_b, equilibria, folds, irreversible_b, regime
+from turnback.model.management import removal_needed, safety_margin
 from turnback.model.params import DimensionlessLake, LakeParameters, LakeProfile
 
 

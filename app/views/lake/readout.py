@@ -6,7 +6,8 @@ from typing import Any
 
 from dash import html
 from turnback.model.clarity import TP_MAX_UG_L, TP_MIN_UG_L, clarity
-from turnback.model.equilibrium import LakeAnalysis, read_state, removal_needed, safety_margin
+from turnback.model.equilibrium import LakeAnalysis
+from turnback.model.management import read_state, removal_needed, safety_margin
 from turnback.model.params import LakeParameters, LakeProfile
 
 from ... import ids
