@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from turnback.model.continuation import continue_equilibria, lake_system
 from turnback.model.equilibrium import equilibria, equilibrium_curve, folds
@@ -74,6 +74,9 @@ def test_continuation_agrees_with_closed_form(p: LakeParameters) -> None:
     fs = folds(p)
     top = 2 * fs[0].load if fs else p.r
     lo = min(-0.1 * top, 1.3 * fs[1].load) if fs else -0.1 * top
+    # A lake at the cusp has its two folds closer together than any continuation step can resolve
+    # (e.g. s = 2.906, r = m = 1, q = 11.6: folds 4e-4 apart in load); the closed form still finds them.
+    assume(not fs or fs[0].load - fs[1].load > 1e-3 * (top - lo))
     rhs, jx, jl = lake_system(p)
     start = 0.01 * fs[0].p if fs else 1e-3 * p.m
     res = continue_equilibria(rhs, jx, jl, np.array([start]), 0.0, (lo, top), scale=(p.m, top - lo))
