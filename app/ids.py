@@ -8,6 +8,7 @@ HISTORY_STORE = "history-store"  # every state the lake passed through this sess
 
 # page
 ROOT = "page-root"
+PAGE_NOTICE = "page-notice"  # one line the server writes when it refuses a request or a step fails
 MEETING_TOGGLE = "meeting-toggle"
 LAKE_TITLE = "lake-title"
 
@@ -79,6 +80,7 @@ MAP_NOTE = "map-note"
 RECORD_STORE = "record-store"  # the monitoring series on show
 FIT_STORE = "fit-store"  # the last fit: parameters, bands, regime probabilities, bootstrap cloud
 RECORD_UPLOAD = "record-upload"
+UPLOAD_LIMIT = "upload-limit"  # carries the upload size limit for assets/upload-limit.js
 RECORD_MESSAGE = "record-message"
 RECORD_SUMMARY = "record-summary"
 RECORD_VOLUME = "record-volume"

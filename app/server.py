@@ -8,7 +8,7 @@ from dash import Dash
 from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from turnback.model.io.resources import assets_folder
 
-from . import shell
+from . import guard, shell
 from .background import make_manager
 from .stores import demo_record, lake_to_store
 from .views.lake import callbacks as lake_callbacks
@@ -30,7 +30,9 @@ def create_app(data_dir: str | Path | None = None) -> Dash:
         assets_folder=assets_folder(),
         background_callback_manager=make_manager(),
         suppress_callback_exceptions=False,
+        on_error=guard.on_callback_error,
     )
+    guard.install(app)
     app.layout = shell.build_layout(lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE), demo_record())
     shell.register(app)
     lake_callbacks.register(app)

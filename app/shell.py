@@ -6,6 +6,8 @@ survives a change of tab.
 
 from __future__ import annotations
 
+from typing import Any
+
 from dash import Dash, Input, Output, dcc, html
 
 from . import ids
@@ -30,6 +32,7 @@ TABS = {
     ids.TAB_MAP: "Regime map",
 }
 HIDDEN = {"display": "none"}
+_LIVE: dict[str, Any] = {"aria-live": "polite"}  # screen readers read the notice when it changes
 
 
 def stores(lake: LakeStore, record: RecordStore | None) -> list[dcc.Store]:
@@ -96,6 +99,7 @@ def build_layout(lake: LakeStore, record: RecordStore | None = None) -> html.Div
             *stores(lake, record),
             top_bar(profile.name),
             html.Div(CAUTION, className="caution-banner", role="note"),
+            html.Div(id=ids.PAGE_NOTICE, className="page-notice", role="status", **_LIVE),
             tabs(),
             *[
                 html.Div(children, id=ids.VIEWS[tab], style={} if tab == ids.TAB_LAKE else HIDDEN)

@@ -14,6 +14,7 @@ from turnback.model.io.monitoring_csv import MonitoringError, parse_monitoring
 
 from ... import ids
 from ...background import ProgressReporter, SetProgress
+from ...store_checks import surrogate_count
 from ...stores import lake_from_store, record_to_store, series_from_store
 from ...theme import is_meeting
 from .figures import clarity_figure, record_figure, warning_figure
@@ -51,7 +52,9 @@ def record_summary(record: Mapping[str, Any]) -> str:
 def warning_signs(record: Mapping[str, Any], meeting: bool) -> tuple[list[html.Div], Any]:
     """The warning-sign words and figure of the record (a message and no figure when they cannot be computed)."""
     try:
-        ew = early_warning(record["tp_ug_l"], record["year"], n_surrogates=500, rng=FIT_SEED)
+        ew = early_warning(
+            record["tp_ug_l"], record["year"], n_surrogates=surrogate_count(len(record["year"])), rng=FIT_SEED
+        )
     except ValueError as exc:
         return [html.Div(f"No warning signs computed: {exc}", className="readout-row")], {}
     words = [html.Div(i.summary, className="readout-row") for i in ew.indicators]

@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 from dash import dcc, html
 
 from ... import ids
+from ...store_checks import MAX_UPLOAD_BYTES
 from ...theme import graph_config
 
 FORMAT_HINT = (
@@ -12,6 +15,8 @@ FORMAT_HINT = (
     "optionally secchi_m and chl_ug_l. At least 10 consecutive years. The invented record of the demo lake is "
     "loaded to start with."
 )
+
+_LIMIT: dict[str, Any] = {"data-max-bytes": str(MAX_UPLOAD_BYTES)}  # read by assets/upload-limit.js
 
 
 def build_view() -> list[html.Div]:
@@ -22,11 +27,13 @@ def build_view() -> list[html.Div]:
                 html.P(FORMAT_HINT, className="hint"),
                 dcc.Upload(
                     id=ids.RECORD_UPLOAD,
+                    max_size=MAX_UPLOAD_BYTES,
                     children=html.Div(["Drop a monitoring CSV here, or ", html.A("choose a file")]),
                     className="upload-box",
                     multiple=False,
                 ),
                 html.Div(id=ids.RECORD_MESSAGE, className="field-message", role="alert"),
+                html.Div(id=ids.UPLOAD_LIMIT, hidden=True, **_LIMIT),
                 html.Div(id=ids.RECORD_SUMMARY, className="readout-row"),
                 html.Div(
                     [
