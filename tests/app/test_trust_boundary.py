@@ -15,7 +15,6 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-
 from turnback.app import ids
 from turnback.app.server import create_app
 from turnback.app.stores import new_history
