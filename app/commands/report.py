@@ -55,6 +55,10 @@ def run(args: argparse.Namespace) -> int:
     if not out.parent.is_dir():
         raise ValueError(f"-o: folder {str(out.parent)!r} does not exist; create it or choose another path")
     plan = load_plan_file(plan_path)
+    if plan.lake.model != "one-box":
+        raise ValueError(
+            "report supports one-box lakes so far; for a two-pool lake use turnback compare PLAN.json [--json --full]"
+        )
     comp = compare_plan(plan)
     figures = report_figures(comp)
     write_text_atomic(out, build_report_html(comp, source=plan_path.name, figures=figures))
