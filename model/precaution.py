@@ -212,7 +212,9 @@ def precautionary_load(
     for every trial load (common random numbers), so the ensemble estimate
     :math:`\hat p(L)` is a step function that is non-decreasing in ``L``
     for ``s <= 1`` (the annual map is then increasing in both ``P`` and
-    ``L``).  Bisection on ``[0, L_max)`` keeps ``p̂(lo) <= X < p̂(hi)``
+    ``L``).  For a two-pool lake (members start at the clear state with the
+    sediment in balance) that monotonicity is not guaranteed; the bisection
+    then finds one load where the estimate crosses ``X``.  Bisection on ``[0, L_max)`` keeps ``p̂(lo) <= X < p̂(hi)``
     until ``hi − lo <= load_rtol · L_max``; ``L* = lo``.  ``L_max`` is where
     the clear state reaches the threshold (the tipping load with the
     separatrix threshold, Carpenter, Ludwig & Brock 1999).
