@@ -22,6 +22,21 @@ Recovery time
     ``k = 3``), all within the horizon; members that never do are "not
     recovered".
 
+Two-pool lakes
+    The same rules act on the *water* P, the P that monitoring sees, with
+    the folds and the saddle of the two-pool curve
+    (:mod:`turnback.model.two_pool_equilibrium`).  The true boundary between
+    the clear and turbid basins is the saddle's stable manifold, a curve in
+    the (water P, sediment P) plane; the rule replaces it by the line of
+    constant water P through the saddle.  A lake that dips below that line
+    while it holds so much sediment P that it goes back to turbid counts as
+    clear for those years and turbid again afterwards (a relapse in the
+    outcomes); requiring ``recovery_stay_years`` consecutive clear years
+    guards the recovery year against such passages.  After a load cut below
+    the recovery load, the case of a plan, there is only the clear state, and
+    the rule counts the years until the water P falls below the recovery
+    fold's water P, which is what the sediment delays.
+
 References
 ----------
 Carpenter, S. R., Ludwig, D. & Brock, W. A. (1999). Management of
@@ -34,8 +49,8 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from .equilibrium import Fold, equilibria, folds
-from .params import LakeParameters
+from .equilibrium import Fold
+from .lake_models import AnyLakeParameters, lake_equilibria, lake_folds
 from .plan import NO_FOLDS, Scenario, ScenarioLake
 from .validation import FieldError
 
@@ -55,19 +70,19 @@ def scenario_clear_below_kg(lake: ScenarioLake, scenario: Scenario) -> float | N
     rule = scenario.clear_threshold
     if not isinstance(rule, str):
         return float(lake.mass(rule))
-    fs = folds(lake.params)
+    fs = lake_folds(lake.params)
     if not fs:
         raise FieldError(("clear_threshold",), NO_FOLDS)
     return None if rule == "separatrix" else fs[0].p
 
 
-def _separatrix_kg(params: LakeParameters, load: float, fs: tuple[Fold, ...]) -> float:
+def _separatrix_kg(params: AnyLakeParameters, load: float, fs: tuple[Fold, ...]) -> float:
     tip, rec = fs[0], fs[1]
     if load >= tip.load:
         return tip.p
     if load <= rec.load:
         return rec.p
-    mids = [e.p for e in equilibria(params, load) if e.branch == "middle"]
+    mids = [e.p for e in lake_equilibria(params, load) if e.branch == "middle"]
     if mids:
         return mids[0]
     # numerically at a fold: the nearer fold's P
@@ -75,7 +90,7 @@ def _separatrix_kg(params: LakeParameters, load: float, fs: tuple[Fold, ...]) ->
 
 
 def clear_threshold_kg(
-    params: LakeParameters, load: float, *, clear_below_kg: float | None = None, fs: tuple[Fold, ...] | None = None
+    params: AnyLakeParameters, load: float, *, clear_below_kg: float | None = None, fs: tuple[Fold, ...] | None = None
 ) -> float:
     """Lake P [kg] below which the lake counts as clear at ``load`` [kg yr⁻¹].
 
@@ -93,17 +108,17 @@ def clear_threshold_kg(
     if clear_below_kg is not None:
         return float(clear_below_kg)
     if fs is None:
-        fs = folds(params)
+        fs = lake_folds(params)
     if not fs:
         raise FieldError(("clear_threshold",), NO_FOLDS)
     return _separatrix_kg(params, float(load), fs)
 
 
 def thresholds_by_year(
-    params: LakeParameters, loads: NDArray[np.float64], clear_below_kg: float | None
+    params: AnyLakeParameters, loads: NDArray[np.float64], clear_below_kg: float | None
 ) -> NDArray[np.float64]:
     """Threshold [kg] for years 0 … T: year 0 uses year 1's load."""
-    fs = folds(params)
+    fs = lake_folds(params)
     cache: dict[float, float] = {}
     out = np.empty(loads.size + 1)
     for i, load in enumerate(np.concatenate([loads[:1], loads])):

@@ -1,10 +1,14 @@
 r"""Pseudo-arclength continuation of equilibria for any model ``x' = F(x, L)``.
 
 The one-state lake model has a closed-form equilibrium curve
-(:mod:`turnback.model.equilibrium`); models with more state variables (for example a
-lake with a sediment-P pool) do not.  This module traces their equilibria as
+(:mod:`turnback.model.equilibrium`), and so has the two-pool lake
+(:mod:`turnback.model.two_pool_equilibrium`); this module is the independent
+route for both and for any model ``x' = F(x, L)``.  It traces equilibria as
 the load ``L`` varies, detects folds and reports stability from the
-eigenvalues of the Jacobian.
+eigenvalues of the Jacobian (:func:`continue_equilibria`, with
+:func:`lake_system` and :func:`two_pool_system`), and traces a fold through
+a second parameter (:func:`continue_folds`), which gives the fold curves of
+a two-parameter regime map.
 
 Method (Keller's pseudo-arclength continuation)
     With ``y = (x, L)`` and unit tangent ``t`` at a point ``y_k`` on the curve,
@@ -21,6 +25,15 @@ Method (Keller's pseudo-arclength continuation)
 Stability
     An equilibrium is stable when every eigenvalue of ``F_x`` has a negative
     real part.
+
+Fold curves (two parameters)
+    A fold satisfies ``F(x, L, p) = 0`` and ``det F_x = 0``.  With the
+    augmented state ``X = (x, L)`` and the second parameter ``p`` in the
+    place of the load, these ``n + 1`` equations are again a curve traced by
+    the same pseudo-arclength method; a turning point of ``p`` along it is a
+    cusp, where the two fold curves meet (Kuznetsov 2004, sec. 10.2).  The
+    derivatives of ``det F_x`` are central differences; Newton's corrector
+    still converges to the exact zero because the residual is exact.
 
 References
 ----------
@@ -42,8 +55,18 @@ from numpy.typing import NDArray
 from scipy.optimize import brentq
 
 from .params import LakeParameters, recycling_fraction
+from .two_pool import TwoPoolParameters
 
-__all__ = ["ContinuationFold", "ContinuationResult", "continue_equilibria", "lake_system"]
+__all__ = [
+    "ContinuationFold",
+    "ContinuationResult",
+    "FoldCurveResult",
+    "continue_equilibria",
+    "continue_folds",
+    "lake_system",
+    "two_pool_fold_system",
+    "two_pool_system",
+]
 
 Vector = NDArray[np.float64]
 RHS = Callable[[Vector, float], Vector]
@@ -290,3 +313,180 @@ def lake_system(params: LakeParameters) -> tuple[RHS, Jac, Callable[[Vector, flo
         return np.ones(np.atleast_1d(x).shape)
 
     return rhs, jac_x, jac_load
+
+
+def two_pool_system(params: TwoPoolParameters) -> tuple[RHS, Jac, Callable[[Vector, float], Vector]]:
+    """``F``, ``F_x`` and ``F_L`` of the two-pool lake for :func:`continue_equilibria`, state ``x = (P, M)``.
+
+    ``F = (L - (s+h) P + r M g(P), s P - b M - r M g(P))``, ``F_L = (1, 0)``
+    and ``F_x`` from :meth:`~turnback.model.two_pool.TwoPoolParameters.jacobian`.
+    """
+
+    def rhs(x: Vector, load: float) -> Vector:
+        return params.rate(0.0, x, load)
+
+    def jac_x(x: Vector, load: float) -> NDArray[np.float64]:
+        return params.jacobian(float(x[0]), float(x[1]))
+
+    def jac_load(x: Vector, load: float) -> Vector:
+        return np.array([1.0, 0.0])
+
+    return rhs, jac_x, jac_load
+
+
+def _two_pool_parts(values: dict[str, float], x: Vector, load: float) -> tuple[Vector, NDArray[np.float64]]:
+    """``F`` and ``F_x`` of the two-pool lake from plain numbers (any values, no validation)."""
+    s, h, b, r = values["sedimentation"], values["outflow"], values["burial"], values["recycling_rate"]
+    mh, q = values["recycling_half"], values["recycling_exponent"]
+    p, m_sed = float(x[0]), float(x[1])
+    g = float(recycling_fraction(p, mh, q)) if mh > 0.0 else 1.0
+    dg = q * g * (1.0 - g) / p if p > 0.0 else 0.0
+    u = r * m_sed * dg
+    f = np.array([load - (s + h) * p + r * m_sed * g, s * p - b * m_sed - r * m_sed * g])
+    return f, np.array([[-(s + h) + u, r * g], [s - u, -(b + r * g)]])
+
+
+def two_pool_fold_system(
+    params: TwoPoolParameters, axis: str
+) -> tuple[
+    Callable[[Vector, float, float], Vector],
+    Callable[[Vector, float, float], NDArray[np.float64]],
+    Callable[[Vector, float, float], Vector],
+]:
+    """``F``, ``F_x`` and ``F_L`` of the two-pool lake as functions of ``(x, L, p)`` for :func:`continue_folds`.
+
+    ``p`` replaces the parameter named ``axis`` (a field of
+    :class:`~turnback.model.two_pool.TwoPoolParameters`); the others stay at ``params``.
+    """
+    base = params.to_dict()
+    if axis not in base:
+        raise ValueError(f"axis must be one of {', '.join(base)}; got {axis!r}")
+
+    def rhs(x: Vector, load: float, par: float) -> Vector:
+        return _two_pool_parts(base | {axis: par}, x, load)[0]
+
+    def jac_x(x: Vector, load: float, par: float) -> NDArray[np.float64]:
+        return _two_pool_parts(base | {axis: par}, x, load)[1]
+
+    def jac_load(x: Vector, load: float, par: float) -> Vector:
+        return np.array([1.0, 0.0])
+
+    return rhs, jac_x, jac_load
+
+
+@dataclass(frozen=True)
+class FoldCurveResult:
+    """A fold traced through a second parameter by :func:`continue_folds`.
+
+    Attributes
+    ----------
+    parameter : ndarray, shape (k,)
+        The second parameter at each point.
+    load : ndarray, shape (k,)
+        Load at the fold.
+    x : ndarray, shape (k, n)
+        State at the fold.
+    cusps : tuple of int
+        Indices where the parameter turns (cusps, where two fold curves meet).
+    cusp_points : tuple of (parameter, load, x)
+        The cusps refined to where the parameter's tangent component is zero.
+    status, message
+        As :class:`ContinuationResult`.
+    """
+
+    parameter: Vector
+    load: Vector
+    x: NDArray[np.float64]
+    cusps: tuple[int, ...]
+    cusp_points: tuple[tuple[float, float, Vector], ...]
+    status: int
+    message: str
+
+
+def continue_folds(
+    rhs: Callable[[Vector, float, float], Vector],
+    jac_x: Callable[[Vector, float, float], NDArray[np.float64]],
+    jac_load: Callable[[Vector, float, float], Vector],
+    x0: Vector,
+    load0: float,
+    par0: float,
+    par_range: tuple[float, float],
+    *,
+    direction: float = 1.0,
+    det_scale: float = 1.0,
+    fd_step: float = 1e-6,
+    domain: Callable[[Vector], bool] | None = None,
+    **kwargs: float,
+) -> FoldCurveResult:
+    """Trace the fold through ``(x0, load0)`` as the second parameter moves from ``par0``.
+
+    Parameters
+    ----------
+    rhs, jac_x, jac_load : callables of ``(x, L, p)``
+        ``F``, ``F_x`` and ``F_L`` with the second parameter ``p``.
+    x0, load0 : starting guess of a fold at ``par0`` (corrected first).
+    par_range : (float, float)
+        Continuation stops once ``p`` leaves this interval.
+    direction : +1 or -1
+        Start towards larger or smaller ``p``.
+    det_scale : float
+        Typical size of ``det F_x``, so that both kinds of residual weigh alike.
+    fd_step : float
+        Relative step of the central differences.
+    domain : callable, optional
+        ``domain(x) -> bool`` on the state; continuation stops where it turns False.
+    **kwargs
+        Passed to :func:`continue_equilibria` (``ds``, ``ds_max``, ``max_steps``, ``tol``).
+    """
+    x0 = np.atleast_1d(np.asarray(x0, dtype=float))
+    n = x0.size
+    typical = np.concatenate([np.maximum(np.abs(x0), 1e-12), [max(abs(load0), 1e-12)]])
+
+    def det(xx: Vector, load: float, par: float) -> float:
+        return float(np.linalg.det(np.atleast_2d(jac_x(xx, load, par)))) / det_scale
+
+    def g(big: Vector, par: float) -> Vector:
+        return np.concatenate([np.atleast_1d(rhs(big[:n], float(big[n]), par)), [det(big[:n], float(big[n]), par)]])
+
+    def g_big(big: Vector, par: float) -> NDArray[np.float64]:
+        out = np.empty((n + 1, n + 1))
+        out[:n, :n] = np.atleast_2d(jac_x(big[:n], float(big[n]), par))
+        out[:n, n] = np.atleast_1d(jac_load(big[:n], float(big[n]), par))
+        for j in range(n + 1):
+            step = fd_step * max(abs(float(big[j])), float(typical[j]))
+            up, down = big.copy(), big.copy()
+            up[j] += step
+            down[j] -= step
+            out[n, j] = (det(up[:n], float(up[n]), par) - det(down[:n], float(down[n]), par)) / (2.0 * step)
+        return out
+
+    def g_par(big: Vector, par: float) -> Vector:
+        step = fd_step * max(abs(par), 1e-12)
+        return (g(big, par + step) - g(big, par - step)) / (2.0 * step)
+
+    def big_domain(big: Vector) -> bool:
+        return domain is None or bool(domain(big[:n]))
+
+    res = continue_equilibria(
+        g,
+        g_big,
+        g_par,
+        np.concatenate([x0, [load0]]),
+        par0,
+        par_range,
+        direction=direction,
+        scale=(typical, par_range[1] - par_range[0]),
+        domain=big_domain,
+        **kwargs,  # type: ignore[arg-type]
+    )
+    dp = np.diff(res.load)
+    cusps = tuple(int(i) + 1 for i in np.flatnonzero(dp[:-1] * dp[1:] < 0.0))
+    return FoldCurveResult(
+        parameter=res.load,
+        load=res.x[:, n],
+        x=res.x[:, :n].copy(),
+        cusps=cusps,
+        cusp_points=tuple((f.load, float(f.x[n]), f.x[:n].copy()) for f in res.folds),
+        status=res.status,
+        message=res.message,
+    )

@@ -12,6 +12,20 @@ This is the discrete-time form used in the stochastic analyses of the model
 equilibria are those of the differential equation ``dP/dt = f(P, L)``, and
 for ``s < 2`` yr⁻¹ so is their stability (``∂f/∂P >= -s`` everywhere).
 
+The two-pool lake (:mod:`turnback.model.two_pool`, Carpenter 2005) runs
+through the same function with water P ``P`` and sediment P ``M`` [kg]:
+
+.. math::
+
+    P_{t+1} = P_t + L_t - (s + h) P_t + c_t\, r M_t g(P_t) + \varepsilon_t, \qquad
+    M_{t+1} = M_t + s P_t - b M_t - c_t\, r M_t g(P_t)
+
+after the removals at the start of year ``t`` (from the water by default,
+from the sediment for dredging); both pools are kept at or above zero.
+Inactivation scales the recycling term ``r M g(P)``.  The yearly fractions
+must fit in a year: ``s + h <= 1`` and ``b + r <= 1``
+(:func:`turnback.model.two_pool.map_limits_message`).
+
 Every function works on whole ensembles at once: arrays broadcast over
 leading axes, time runs along the last.
 """
@@ -25,6 +39,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .params import LakeParameters, recycling_fraction
+from .two_pool import TwoPoolParameters, map_limits_message
 
 __all__ = ["Trajectory", "annual_step", "simulate"]
 
@@ -50,10 +65,13 @@ class Trajectory:
 
     ``p`` has one more entry along the last axis than ``load``: ``p[..., 0]``
     is the starting state and ``p[..., t+1]`` the state after year ``t``.
+    ``m`` is the sediment P [kg] of a two-pool lake, on the same axes
+    (None for the one-box lake).
     """
 
     p: NDArray[np.float64]
     load: NDArray[np.float64]
+    m: NDArray[np.float64] | None = None
 
     @property
     def final(self) -> NDArray[np.float64]:
@@ -61,23 +79,26 @@ class Trajectory:
 
 
 def simulate(
-    params: LakeParameters,
+    params: LakeParameters | TwoPoolParameters,
     p0: ArrayLike,
     loads: ArrayLike,
     *,
     recycling_scale: ArrayLike | None = None,
     removal: ArrayLike | None = None,
     process_noise: ArrayLike | None = None,
+    m0: ArrayLike | None = None,
+    sediment_removal: ArrayLike | None = None,
 ) -> Trajectory:
     """Run the annual map over the years in ``loads``.
 
     Parameters
     ----------
-    params : LakeParameters
-        ``loss_rate`` must be below 2 yr⁻¹ for the annual step to keep the
-        stability of the differential equation.
+    params : LakeParameters or TwoPoolParameters
+        One-box: ``loss_rate`` must be below 2 yr⁻¹ for the annual step to
+        keep the stability of the differential equation.  Two-pool:
+        ``s + h <= 1`` and ``b + r <= 1`` [yr⁻¹].
     p0 : array_like
-        Starting lake P [kg]; broadcasts against ``loads[..., 0]``.
+        Starting lake (water) P [kg]; broadcasts against ``loads[..., 0]``.
     loads : array_like, shape (..., T)
         External load in each year [kg yr⁻¹].
     recycling_scale : array_like, shape (..., T), optional
@@ -86,11 +107,20 @@ def simulate(
         In-lake P removed at the start of each year [kg].
     process_noise : array_like, shape (..., T), optional
         Additive disturbance at the end of each year [kg].
+    m0 : array_like, optional
+        Two-pool lake only: starting sediment P [kg]; by default the balance
+        ``M*(P0) = s P0 / (b + r g(P0))``.
+    sediment_removal : array_like, shape (..., T), optional
+        Two-pool lake only: sediment P dredged at the start of each year [kg].
 
     Returns
     -------
     Trajectory
     """
+    if isinstance(params, TwoPoolParameters):
+        return _simulate_two_pool(params, p0, loads, recycling_scale, removal, process_noise, m0, sediment_removal)
+    if m0 is not None or sediment_removal is not None:
+        raise ValueError("m0 and sediment_removal belong to the two-pool lake; this lake is one-box")
     if params.s >= MAX_LOSS_RATE:
         raise ValueError(f"loss_rate must be below {MAX_LOSS_RATE:g} yr⁻¹ for the annual model; got {params.s:g}")
     load_arr = np.asarray(loads, dtype=float)
@@ -132,6 +162,78 @@ def simulate(
         np.maximum(nxt, 0.0, out=p)
         out_t[t + 1] = p
     return Trajectory(p=out, load=load_arr)
+
+
+def _simulate_two_pool(
+    params: TwoPoolParameters,
+    p0: ArrayLike,
+    loads: ArrayLike,
+    recycling_scale: ArrayLike | None,
+    removal: ArrayLike | None,
+    process_noise: ArrayLike | None,
+    m0: ArrayLike | None,
+    sediment_removal: ArrayLike | None,
+) -> Trajectory:
+    """The two-pool branch of :func:`simulate` (module docstring); same storage and broadcasting."""
+    msg = map_limits_message(params)
+    if msg is not None:
+        raise ValueError(msg)
+    load_arr = np.asarray(loads, dtype=float)
+    if load_arr.ndim == 0:
+        raise ValueError("loads must have a time axis (one value a year)")
+    n_years = load_arr.shape[-1]
+    shape = load_arr.shape
+    batch = shape[:-1]
+
+    def per_year(a: ArrayLike | None) -> NDArray[np.float64] | None:
+        if a is None:
+            return None
+        return np.moveaxis(np.broadcast_to(np.asarray(a, dtype=float), shape), -1, 0)
+
+    scale_t, rem_t, noise_t, dredge_t = (
+        per_year(recycling_scale),
+        per_year(removal),
+        per_year(process_noise),
+        per_year(sediment_removal),
+    )
+    p_out_t = np.empty((n_years + 1, *batch))
+    m_out_t = np.empty((n_years + 1, *batch))
+    p = np.array(np.broadcast_to(np.asarray(p0, dtype=float), batch), dtype=float)
+    if m0 is None:
+        msed = np.array(np.broadcast_to(params.sediment_balance(p), batch), dtype=float)
+    else:
+        msed = np.array(np.broadcast_to(np.asarray(m0, dtype=float), batch), dtype=float)
+    np.maximum(p, 0.0, out=p)
+    np.maximum(msed, 0.0, out=msed)
+    p_out_t[0] = p
+    m_out_t[0] = msed
+    loads_t = np.ascontiguousarray(np.moveaxis(load_arr, -1, 0))
+    s, r, b = params.s, params.r, params.b
+    hill = _hill_function(params.m, params.q)
+    keep_p, keep_m = 1.0 - s - params.h, 1.0 - b
+    for t in range(n_years):
+        if rem_t is not None:
+            np.maximum(p - rem_t[t], 0.0, out=p)
+        if dredge_t is not None:
+            np.maximum(msed - dredge_t[t], 0.0, out=msed)
+        flux = hill(p)
+        if scale_t is not None:
+            flux *= scale_t[t]
+        flux *= msed
+        flux *= r
+        nxt_m = msed * keep_m
+        nxt_m += s * p
+        nxt_m -= flux
+        nxt_p = p * keep_p
+        nxt_p += loads_t[t]
+        nxt_p += flux
+        if noise_t is not None:
+            nxt_p += noise_t[t]
+        np.maximum(nxt_p, 0.0, out=p)
+        np.maximum(nxt_m, 0.0, out=msed)
+        p_out_t[t + 1] = p
+        m_out_t[t + 1] = msed
+    return Trajectory(p=np.moveaxis(p_out_t, 0, -1), load=load_arr, m=np.moveaxis(m_out_t, 0, -1))
 
 
 def _hill_function(m: float, q: float) -> Callable[[NDArray[np.float64]], NDArray[np.float64]]:

@@ -6,7 +6,10 @@ map of :func:`turnback.model.dynamics.simulate`,
 .. math:: P_{t+1} = P_t - R_t + L_t\,\mu_t - s (P_t - R_t) + c_t\, r \frac{(P_t - R_t)^q}{m^q + (P_t - R_t)^q}
           + \sigma_P\, \eta_t
 
-(Carpenter, Ludwig & Brock 1999, Ecological Applications 9:751–771), with
+(Carpenter, Ludwig & Brock 1999, Ecological Applications 9:751–771), or its
+two-pool form with a mobile sediment-P pool (:mod:`turnback.model.two_pool`,
+Carpenter 2005, PNAS 102:10002–10005; dredging takes sediment P, inactivation
+scales the recycling from the sediment), with
 lake P ``P`` [kg], scheduled load ``L_t`` [kg yr⁻¹], in-lake removal ``R_t``
 [kg] taken out at the start of the year, recycling multiplier ``c_t`` in
 [0, 1] from sediment P inactivation, the load multiplier ``μ_t`` and the
@@ -24,14 +27,15 @@ from numpy.typing import NDArray
 
 from .clear_state import scenario_clear_below_kg, thresholds_by_year
 from .dynamics import simulate
-from .equilibrium import folds, regime_from_folds
+from .equilibrium import regime_from_folds
+from .lake_models import lake_folds
 from .outcomes import Comparison, ScenarioResult, summarise
 from .plan import Plan, Scenario, ScenarioLake
 from .precaution import scenario_precaution
 from .progress import Cancel, Progress, RngLike, check_cancel, report, scaled
 from .variability import n_sources, varied
 
-__all__ = ["compare_plan", "run_scenario", "simulate_members"]
+__all__ = ["compare_plan", "run_scenario", "simulate_members", "simulate_pools"]
 
 #: Members simulated together (bounds memory; results do not depend on it).
 CHUNK_MEMBERS = 4096
@@ -45,12 +49,27 @@ def simulate_members(
     progress: Progress | None = None,
     cancel: Cancel | None = None,
 ) -> NDArray[np.float64]:
-    """Lake P [kg] of every member in years 0 … T, shape (members, years + 1).
+    """Lake (water) P [kg] of every member in years 0 … T, shape (members, years + 1).
 
     Without randomness every member is the same path (a read-only broadcast
     of one row).  Member ``i`` draws its standard normals (load, then process
     noise; shape (sources, T)) in member order, so results do not depend on
     how the run is chunked.  ``cancel()`` is checked between chunks.
+    """
+    return simulate_pools(lake, scenario, gen, progress=progress, cancel=cancel)[0]
+
+
+def simulate_pools(
+    lake: ScenarioLake,
+    scenario: Scenario,
+    gen: np.random.Generator,
+    *,
+    progress: Progress | None = None,
+    cancel: Cancel | None = None,
+) -> tuple[NDArray[np.float64], NDArray[np.float64] | None]:
+    """Water P and, for a two-pool lake, sediment P [kg] of every member, each (members, years + 1).
+
+    As :func:`simulate_members`; the sediment is None for a one-box lake.
     """
     params = lake.params
     T, M = scenario.years, scenario.members
@@ -60,26 +79,37 @@ def simulate_members(
     p0 = lake.initial_p_kg
     cv, sd = scenario.variability_cv, scenario.process_noise_sd_kg
     n_src = n_sources(cv, sd)
+    m0 = lake.initial_m_kg
+    dredge = None if m0 is None else scenario.sediment_removal_by_year()
     check_cancel(cancel)
     if n_src == 0:
-        one = simulate(params, p0, loads[None, :], recycling_scale=scale, removal=removal).p
-        return np.broadcast_to(one, (M, T + 1))
+        one = simulate(
+            params, p0, loads[None, :], recycling_scale=scale, removal=removal, m0=m0, sediment_removal=dredge
+        )
+        sed = None if one.m is None else np.broadcast_to(one.m, (M, T + 1))
+        return np.broadcast_to(one.p, (M, T + 1)), sed
     P = np.empty((M, T + 1))
+    S = None if m0 is None else np.empty((M, T + 1))
     for start in range(0, M, CHUNK_MEMBERS):
         check_cancel(cancel)
         c = min(CHUNK_MEMBERS, M - start)
         yearly, noise = varied(loads, gen.standard_normal((c, n_src, T)), cv, sd)
         # year-major memory so that each year's slice is contiguous inside simulate (faster)
-        P[start : start + c] = simulate(
+        traj = simulate(
             params,
             p0,
             np.asfortranarray(yearly),
             recycling_scale=scale,
             removal=removal,
             process_noise=None if noise is None else np.asfortranarray(noise),
-        ).p
+            m0=m0,
+            sediment_removal=dredge,
+        )
+        P[start : start + c] = traj.p
+        if S is not None and traj.m is not None:
+            S[start : start + c] = traj.m
         report(progress, (start + c) / M, f"{start + c:,} of {M:,} members")
-    return P
+    return P, S
 
 
 def run_scenario(
@@ -117,7 +147,7 @@ def run_scenario(
     has_prec = with_precaution and scenario.precaution is not None
     share = 0.6 if has_prec else 1.0
     thr = thresholds_by_year(lake.params, scenario.loads(), scenario_clear_below_kg(lake, scenario))
-    P = simulate_members(
+    P, S = simulate_pools(
         lake, scenario, gen, progress=scaled(progress, 0.0, share, f"{scenario.name}: "), cancel=cancel
     )
     precaution = None
@@ -132,7 +162,14 @@ def run_scenario(
     report(progress, 1.0, f"{scenario.name}: done")
     identical = n_sources(scenario.variability_cv, scenario.process_noise_sd_kg) == 0
     return summarise(
-        lake, scenario, P, thr, identical_members=identical, sample_paths=sample_paths, precaution=precaution
+        lake,
+        scenario,
+        P,
+        thr,
+        identical_members=identical,
+        sample_paths=sample_paths,
+        precaution=precaution,
+        sediment_kg=S,
     )
 
 
@@ -148,7 +185,7 @@ def compare_plan(
     ``progress(fraction, message)`` is called as members finish, weighted
     by members × years; ``cancel()`` is checked between chunks.
     """
-    fs = folds(plan.lake.params)
+    fs = lake_folds(plan.lake.params)
     weights = [float(s.members * s.years) * (2.0 if s.precaution else 1.0) for s in plan.scenarios]
     total = sum(weights)
     done = 0.0

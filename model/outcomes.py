@@ -68,6 +68,10 @@ class ScenarioResult:
         Mean P actually removed in the lake [kg] (a removal takes at most what the lake holds).
     sample_tp_ug_l : ndarray, (k, T + 1)
         The first ``k`` members' TP paths [µg L⁻¹].
+    sediment_median_kg : ndarray or None
+        Two-pool lakes: ensemble median of the mobile sediment P in years 0 … T [kg].
+    sediment_p_final_median_kg : float or None
+        Two-pool lakes: its value in year T [kg].
     """
 
     name: str
@@ -97,6 +101,8 @@ class ScenarioResult:
     precaution: PrecautionResult | None = None
     status: Literal["ok"] = "ok"
     message: str = ""
+    sediment_median_kg: NDArray[np.float64] | None = None
+    sediment_p_final_median_kg: float | None = None
 
     @property
     def total_removed_kg(self) -> float:
@@ -133,6 +139,8 @@ class ScenarioResult:
             "final_threshold_tp_ug_l": float(self.threshold_tp_ug_l[-1]),
             "message": self.message,
         }
+        if self.sediment_p_final_median_kg is not None:
+            out["sediment_p_final_median_kg"] = self.sediment_p_final_median_kg
         if self.precaution is not None:
             pr = self.precaution
             out["precaution"] = {
@@ -209,6 +217,7 @@ def summarise(
     identical_members: bool = False,
     sample_paths: int = 20,
     precaution: PrecautionResult | None = None,
+    sediment_kg: NDArray[np.float64] | None = None,
 ) -> ScenarioResult:
     """Summarise simulated paths of lake P into a :class:`ScenarioResult`.
 
@@ -226,6 +235,9 @@ def summarise(
         How many members' TP paths to keep.
     precaution : PrecautionResult, optional
         Carried into the result.
+    sediment_kg : ndarray, shape (members, years + 1), optional
+        Two-pool lakes: sediment P [kg] of each member; its median path and
+        final median are reported, and dredged P counts as removed in the lake.
     """
     T, M = scenario.years, scenario.members
     loads = scenario.loads()
@@ -244,6 +256,11 @@ def summarise(
     )
     med = _median_recovery(rec)
     k = max(0, min(int(sample_paths), M))
+    removed = _removed_kg(P, scenario.removal_by_year())
+    sed_median = None
+    if sediment_kg is not None:
+        removed += _removed_kg(sediment_kg, scenario.sediment_removal_by_year())
+        sed_median = np.median(sediment_kg[:1] if identical_members else sediment_kg, axis=0)
     return ScenarioResult(
         name=scenario.name,
         scenario=scenario,
@@ -267,8 +284,10 @@ def summarise(
         final_tp_p95_ug_l=float(np.percentile(final, 95.0)),
         end_state=end_state,
         load_cut_kg=float(np.sum(scenario.load.baseline_kg_per_yr - loads)),
-        in_lake_removal_kg=_removed_kg(P, scenario.removal_by_year()),
+        in_lake_removal_kg=removed,
         sample_tp_ug_l=to_tp * np.array(P[:k]),
         precaution=precaution,
         message=_message(scenario, p_final, med),
+        sediment_median_kg=sed_median,
+        sediment_p_final_median_kg=None if sed_median is None else float(sed_median[-1]),
     )

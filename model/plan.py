@@ -39,7 +39,7 @@ from numpy.typing import NDArray
 
 from . import units
 from .dynamics import MAX_LOSS_RATE
-from .equilibrium import folds
+from .lake_models import AnyLakeParameters, lake_folds, model_name
 from .params import LakeParameters
 from .schedules import (
     MAX_YEARS,
@@ -54,6 +54,7 @@ from .schedules import (
     load_from_dict,
     treatment_from_dict,
 )
+from .two_pool import TwoPoolParameters, check_map_limits
 from .validation import FieldError, known_keys, mapping, number, text, whole, within
 
 __all__ = [
@@ -89,28 +90,46 @@ class ScenarioLake:
 
     Parameters
     ----------
-    params : LakeParameters
-        ``s`` [yr⁻¹] (below 2 for the annual map), ``r`` [kg yr⁻¹], ``m`` [kg], ``q`` [–].
+    params : LakeParameters or TwoPoolParameters
+        One-box: ``s`` [yr⁻¹] (below 2 for the annual map), ``r`` [kg yr⁻¹],
+        ``m`` [kg], ``q`` [–].  Two-pool (:mod:`turnback.model.two_pool`):
+        ``s``, ``h``, ``b``, ``r`` [yr⁻¹] with ``s + h <= 1`` and
+        ``b + r <= 1``, ``m`` [kg], ``q`` [–].
     volume_m3 : float
         Lake volume [m³], > 0; converts P [kg] to TP [µg L⁻¹] as ``TP = 10⁶ P / V``.
     initial_tp_ug_l : float
         Total phosphorus at year 0 [µg L⁻¹], >= 0.
     name : str
         Display name.
+    initial_sediment_p_kg : float or None
+        Two-pool lake only: mobile sediment P at year 0 [kg], >= 0; None
+        (the default) is the balance ``M* = s P₀ / (b + r g(P₀))`` with the
+        starting water P.
     """
 
-    params: LakeParameters
+    params: AnyLakeParameters
     volume_m3: float
     initial_tp_ug_l: float
     name: str = "lake"
+    initial_sediment_p_kg: float | None = None
 
     def __post_init__(self) -> None:
-        if not isinstance(self.params, LakeParameters):
-            raise FieldError(("params",), "must be LakeParameters")
-        if self.params.s >= MAX_LOSS_RATE:
+        if isinstance(self.params, TwoPoolParameters):
+            check_map_limits(self.params)
+            if self.initial_sediment_p_kg is not None:
+                object.__setattr__(
+                    self,
+                    "initial_sediment_p_kg",
+                    number(self.initial_sediment_p_kg, ("initial_sediment_p_kg",), lo=0.0, unit="[kg]"),
+                )
+        elif not isinstance(self.params, LakeParameters):
+            raise FieldError(("params",), "must be LakeParameters or TwoPoolParameters")
+        elif self.params.s >= MAX_LOSS_RATE:
             raise FieldError(
                 ("loss_rate",), f"must be below {MAX_LOSS_RATE:g} [yr⁻¹] for the annual model; got {self.params.s:g}"
             )
+        elif self.initial_sediment_p_kg is not None:
+            raise FieldError(("initial_sediment_p_kg",), "belongs to the two-pool lake ('model': 'two-pool')")
         object.__setattr__(self, "volume_m3", number(self.volume_m3, ("volume_m3",), lo=0.0, lo_open=True, unit="[m³]"))
         object.__setattr__(
             self, "initial_tp_ug_l", number(self.initial_tp_ug_l, ("initial_tp_ug_l",), lo=0.0, unit="[µg L⁻¹]")
@@ -118,9 +137,23 @@ class ScenarioLake:
         object.__setattr__(self, "name", text(self.name, ("name",)))
 
     @property
+    def model(self) -> str:
+        """``"one-box"`` or ``"two-pool"``."""
+        return model_name(self.params)
+
+    @property
     def initial_p_kg(self) -> float:
-        """Lake P at year 0 [kg]."""
+        """Lake (water) P at year 0 [kg]."""
         return float(self.mass(self.initial_tp_ug_l))
+
+    @property
+    def initial_m_kg(self) -> float | None:
+        """Two-pool lake: sediment P at year 0 [kg] (given, or in balance with the water); None for one-box."""
+        if not isinstance(self.params, TwoPoolParameters):
+            return None
+        if self.initial_sediment_p_kg is not None:
+            return self.initial_sediment_p_kg
+        return float(self.params.sediment_balance(self.initial_p_kg))
 
     def tp(self, p_kg: Any) -> Any:
         """Total phosphorus [µg L⁻¹] from lake P [kg]: ``10⁶ P / V``."""
@@ -131,14 +164,26 @@ class ScenarioLake:
         return units.p_kg(tp_ug_l, self.volume_m3)
 
     _PARAM_KEYS: ClassVar[tuple[str, ...]] = ("loss_rate", "recycling_max", "recycling_half", "recycling_exponent")
+    _TWO_POOL_KEYS: ClassVar[tuple[str, ...]] = (
+        "sedimentation",
+        "outflow",
+        "burial",
+        "recycling_rate",
+        "recycling_half",
+        "recycling_exponent",
+    )
 
     def to_dict(self) -> dict[str, Any]:
-        return {
+        out: dict[str, Any] = {"model": "two-pool"} if isinstance(self.params, TwoPoolParameters) else {}
+        out |= {
             **self.params.to_dict(),
             "volume_m3": self.volume_m3,
             "initial_tp_ug_l": self.initial_tp_ug_l,
             "name": self.name,
         }
+        if self.initial_sediment_p_kg is not None:
+            out["initial_sediment_p_kg"] = self.initial_sediment_p_kg
+        return out
 
     @classmethod
     def from_dict(cls, data: object) -> ScenarioLake:
@@ -147,7 +192,20 @@ class ScenarioLake:
             (),
             "the lake's loss_rate, recycling_max, recycling_half, recycling_exponent, volume_m3, initial_tp_ug_l",
         )
-        known_keys(d, (), (*cls._PARAM_KEYS, "volume_m3", "initial_tp_ug_l"), ("name",))
+        model = d.get("model", "one-box")
+        if model == "two-pool":
+            known_keys(
+                d,
+                (),
+                (*cls._TWO_POOL_KEYS, "volume_m3", "initial_tp_ug_l"),
+                ("model", "name", "initial_sediment_p_kg"),
+            )
+            two = TwoPoolParameters(**{k: d[k] for k in cls._TWO_POOL_KEYS})
+            return cls(two, d["volume_m3"], d["initial_tp_ug_l"], d.get("name", "lake"), d.get("initial_sediment_p_kg"))
+        if model != "one-box":
+            raise FieldError(("model",), f"must be 'one-box' or 'two-pool'; got {model!r}")
+        optional = ("name", "model") if "model" in d else ("name",)
+        known_keys(d, (), (*cls._PARAM_KEYS, "volume_m3", "initial_tp_ug_l"), optional)
         for key in cls._PARAM_KEYS:
             number(d[key], (key,), lo=0.0, lo_open=True)  # a type message naming the field
         params = LakeParameters(**{k: d[k] for k in cls._PARAM_KEYS})
@@ -287,10 +345,18 @@ class Scenario:
         return self.load.loads(self.years)
 
     def removal_by_year(self) -> NDArray[np.float64]:
-        """In-lake removal scheduled at the start of years 1 … ``years`` [kg]."""
+        """In-lake removal from the water scheduled at the start of years 1 … ``years`` [kg]."""
         out = np.zeros(self.years)
         for t in self.treatments:
-            if isinstance(t, Removal):
+            if isinstance(t, Removal) and t.pool == "water":
+                out[t.year - 1] += t.kg
+        return out
+
+    def sediment_removal_by_year(self) -> NDArray[np.float64]:
+        """Sediment P dredged at the start of years 1 … ``years`` [kg] (two-pool lakes)."""
+        out = np.zeros(self.years)
+        for t in self.treatments:
+            if isinstance(t, Removal) and t.pool == "sediment":
                 out[t.year - 1] += t.kg
         return out
 
@@ -416,10 +482,17 @@ class Plan:
         if len(scen) > MAX_SCENARIOS:
             raise FieldError(("scenarios",), f"must hold at most {MAX_SCENARIOS} scenarios; got {len(scen)}")
         seen: dict[str, int] = {}
-        has_folds = bool(folds(self.lake.params))
+        has_folds = bool(lake_folds(self.lake.params))
+        two_pool = isinstance(self.lake.params, TwoPoolParameters)
         for i, s in enumerate(scen):
             if not isinstance(s, Scenario):
                 raise FieldError(("scenarios", i), "must be a Scenario")
+            for j, t in enumerate(s.treatments):
+                if isinstance(t, Removal) and t.pool == "sediment" and not two_pool:
+                    raise FieldError(
+                        ("scenarios", i, "treatments", j, "pool"),
+                        '\'sediment\' needs a two-pool lake ("model": "two-pool" in the plan\'s lake)',
+                    )
             if s.name in seen:
                 raise FieldError(("scenarios", i, "name"), f"{s.name!r} is already used by scenarios[{seen[s.name]}]")
             seen[s.name] = i

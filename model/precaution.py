@@ -26,8 +26,8 @@ from numpy.typing import NDArray
 
 from .clear_state import clear_threshold_kg, scenario_clear_below_kg
 from .dynamics import simulate
-from .equilibrium import Fold, equilibria, folds
-from .params import LakeParameters, recycling_fraction
+from .equilibrium import Fold
+from .lake_models import AnyLakeParameters, lake_equilibria, lake_folds, lake_load_at
 from .plan import MAX_CELLS, MAX_MEMBERS, MAX_YEARS, NO_FOLDS, Scenario, ScenarioLake
 from .progress import Cancel, Progress, RngLike, check_cancel, report
 from .validation import FieldError, number, whole
@@ -94,21 +94,25 @@ class PrecautionResult:
     message: str
 
 
-def _clear_equilibrium(params: LakeParameters, load: float) -> float:
-    """The lowest stable equilibrium at ``load`` [kg] (the clear state, or the only state)."""
-    eqs = [e for e in equilibria(params, load) if e.branch in ("lower", "single")]
+def _clear_equilibrium(params: AnyLakeParameters, load: float) -> float:
+    """The lowest stable equilibrium at ``load`` [kg] (the clear state, or the only state).
+
+    A two-pool lake starts with its sediment in balance there (the default of
+    :func:`~turnback.model.dynamics.simulate`).
+    """
+    eqs = [e for e in lake_equilibria(params, load) if e.branch in ("lower", "single")]
     if not eqs:
         raise FieldError(("load",), f"has no clear state for the lake at {load:g} kg/yr (above the tipping load)")
     return eqs[0].p
 
 
-def _load_at_equilibrium(params: LakeParameters, p: float) -> float:
-    """Load [kg yr⁻¹] that holds the lake at P [kg]: ``s P − r P^q/(m^q + P^q)``."""
-    return params.s * p - params.r * float(recycling_fraction(p, params.m, params.q))
+def _load_at_equilibrium(params: AnyLakeParameters, p: float) -> float:
+    """Load [kg yr⁻¹] that holds the lake at P [kg]: ``s P − r P^q/(m^q + P^q)`` (one-box)."""
+    return lake_load_at(params, p)
 
 
 def _flips(
-    params: LakeParameters,
+    params: AnyLakeParameters,
     load: float,
     z: NDArray[np.float64],
     cv: float,
@@ -129,7 +133,7 @@ def _flips(
 
 
 def flip_probability(
-    params: LakeParameters,
+    params: AnyLakeParameters,
     load: float,
     *,
     within_years: int,
@@ -157,7 +161,7 @@ def flip_probability(
     m = whole(members, ("members",), 1, MAX_MEMBERS)
     cv = number(variability_cv, ("variability_cv",), lo=0.0, hi=5.0)
     sd = number(process_noise_sd_kg, ("process_noise_sd_kg",), lo=0.0)
-    fs = folds(params)
+    fs = lake_folds(params)
     gen = np.random.default_rng(rng)
     z = gen.standard_normal((m, n_sources(cv, sd), n_years))
     flipped, start, thr = _flips(params, load, z, cv, sd, p0_kg, clear_below_kg, fs)
@@ -188,7 +192,7 @@ def flip_probability(
 
 
 def precautionary_load(
-    params: LakeParameters,
+    params: AnyLakeParameters,
     *,
     within_years: int,
     max_probability: float,
@@ -208,7 +212,9 @@ def precautionary_load(
     for every trial load (common random numbers), so the ensemble estimate
     :math:`\hat p(L)` is a step function that is non-decreasing in ``L``
     for ``s <= 1`` (the annual map is then increasing in both ``P`` and
-    ``L``).  Bisection on ``[0, L_max)`` keeps ``p̂(lo) <= X < p̂(hi)``
+    ``L``).  For a two-pool lake (members start at the clear state with the
+    sediment in balance) that monotonicity is not guaranteed; the bisection
+    then finds one load where the estimate crosses ``X``.  Bisection on ``[0, L_max)`` keeps ``p̂(lo) <= X < p̂(hi)``
     until ``hi − lo <= load_rtol · L_max``; ``L* = lo``.  ``L_max`` is where
     the clear state reaches the threshold (the tipping load with the
     separatrix threshold, Carpenter, Ludwig & Brock 1999).
@@ -247,7 +253,7 @@ def precautionary_load(
     cv = number(variability_cv, ("variability_cv",), lo=0.0, hi=5.0)
     sd = number(process_noise_sd_kg, ("process_noise_sd_kg",), lo=0.0)
     tol = number(load_rtol, ("load_rtol",), lo=0.0, hi=0.1, lo_open=True)
-    fs = folds(params)
+    fs = lake_folds(params)
     if clear_below_kg is None:
         if not fs:
             raise FieldError(("clear_threshold",), NO_FOLDS)

@@ -23,6 +23,7 @@ from .validation import FieldError, known_keys, mapping, number, whole
 
 __all__ = [
     "MAX_YEARS",
+    "POOLS",
     "ConstantLoad",
     "Inactivation",
     "LinearCut",
@@ -37,6 +38,8 @@ __all__ = [
 
 #: Longest horizon of a scenario [yr].
 MAX_YEARS = 1000
+#: The pools a removal can take P from.
+POOLS = ("water", "sediment")
 
 
 def _year_index(years: int) -> NDArray[np.float64]:
@@ -212,21 +215,34 @@ def load_from_dict(data: object) -> LoadSchedule:
 # --------------------------------------------------------------------------
 @dataclass(frozen=True)
 class Removal:
-    """In-lake P removal of ``kg`` [kg] at the start of year ``year`` (less if the lake holds less)."""
+    """In-lake P removal of ``kg`` [kg] at the start of year ``year`` (less if the pool holds less).
+
+    ``pool`` is ``"water"`` (the default) or, for a two-pool lake,
+    ``"sediment"``: dredging of mobile sediment P.  Dredging needs permits
+    and licensed practice.
+    """
 
     year: int
     kg: float
+    pool: str = "water"
     kind: ClassVar[str] = "removal"
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "year", whole(self.year, ("year",), 1, MAX_YEARS))
         object.__setattr__(self, "kg", number(self.kg, ("kg",), lo=0.0, lo_open=True, unit="[kg]"))
+        if self.pool not in POOLS:
+            raise FieldError(("pool",), f"must be 'water' or 'sediment'; got {self.pool!r}")
 
     def describe(self) -> str:
+        if self.pool == "sediment":
+            return f"dredging of {self.kg:,.0f} kg sediment P in year {self.year}"
         return f"removal of {self.kg:,.0f} kg P in year {self.year}"
 
     def to_dict(self) -> dict[str, Any]:
-        return {"kind": self.kind, "year": self.year, "kg": self.kg}
+        out: dict[str, Any] = {"kind": self.kind, "year": self.year, "kg": self.kg}
+        if self.pool != "water":
+            out["pool"] = self.pool
+        return out
 
 
 @dataclass(frozen=True)
@@ -261,6 +277,7 @@ _TREATMENTS: dict[str, tuple[type, tuple[str, ...]]] = {
     "removal": (Removal, ("year", "kg")),
     "inactivation": (Inactivation, ("year", "percent", "years")),
 }
+_OPTIONAL_FIELDS: dict[str, tuple[str, ...]] = {"removal": ("pool",)}
 
 
 def treatment_from_dict(data: object) -> Treatment:
@@ -269,6 +286,7 @@ def treatment_from_dict(data: object) -> Treatment:
     if not isinstance(kind, str) or kind not in _TREATMENTS:
         raise FieldError(("kind",), f"must be one of {', '.join(_TREATMENTS)}; got {kind!r}")
     cls, names = _TREATMENTS[str(kind)]
-    known_keys(d, (), ("kind", *names))
-    obj: Treatment = cls(**{n: d[n] for n in names})
+    optional = _OPTIONAL_FIELDS.get(str(kind), ())
+    known_keys(d, (), ("kind", *names), optional)
+    obj: Treatment = cls(**{n: d[n] for n in (*names, *optional) if n in d})
     return obj

@@ -12,6 +12,7 @@ from turnback.model.io.lake_file import load_profile_file
 from turnback.model.management import removal_needed, safety_margin
 from turnback.model.params import MAX_VALUE, LakeParameters, LakeProfile
 
+from . import _analyze_two_pool
 from ._shared import number, print_json
 
 #: Largest load the command analyses [mass/yr], as large as any parameter (turnback.model.params.MAX_VALUE).
@@ -46,6 +47,7 @@ def add_parser(sub: Any) -> None:
     p.add_argument("--lake", metavar="FILE", help="lake profile (JSON or TOML) for concentrations and areal loads")
     p.add_argument("--demo", action="store_true", help="analyse the built-in demo lake (fictional)")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+    _analyze_two_pool.add_arguments(p)
     p.set_defaults(run=run)
 
 
@@ -142,6 +144,9 @@ def _table(res: LakeAnalysis, profile: LakeProfile | None) -> str:
 
 
 def run(args: argparse.Namespace) -> int:
+    if args.model == "two-pool":
+        return _analyze_two_pool.run(args)
+    _analyze_two_pool.refuse_two_pool_flags(args)
     params, profile = _resolve(args)
     load = args.load
     if load is not None and not abs(load) <= MAX_LOAD:

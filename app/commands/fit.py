@@ -31,6 +31,7 @@ from turnback.model.io.monitoring_csv import parse_monitoring
 from turnback.model.params import LakeProfile
 from turnback.model.record import MonitoringSeries
 
+from . import _fit_two_pool
 from ._shared import number, print_json
 
 MAX_REPLICATES = 100_000
@@ -62,6 +63,7 @@ def add_parser(sub: Any) -> None:
         help="bootstrap scheme: simulate each replicate record (recursive, default) or keep the observed states",
     )
     p.add_argument("--json", action="store_true", help="print one JSON object instead of a table")
+    _fit_two_pool.add_arguments(p)
     p.set_defaults(run=run)
 
 
@@ -160,6 +162,14 @@ def run(args: argparse.Namespace) -> int:
         raise ValueError(f"--seed must be a whole number >= 0; got {args.seed}")
     series = parse_monitoring(args.file)
     progress = None if args.json else _progress_printer()
+    if args.model == "two-pool":
+        two = _fit_two_pool.run_fit(args, series, volume, progress)
+        if args.json:
+            print_json(two.to_dict())
+        else:
+            print(_fit_two_pool.table(two, Path(args.file).name, volume))
+        return 0
+    _fit_two_pool.refuse_two_pool_flags(args)
     res = fit_monitoring(
         series, volume, replicates=args.replicates, rng=args.seed, scheme=args.scheme, progress=progress
     )

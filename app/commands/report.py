@@ -55,6 +55,10 @@ def run(args: argparse.Namespace) -> int:
         raise ValueError("-o must not be the plan file itself; give another file name for the report")
     check_target(out, "the report")  # before the work: a link, special file or unwritable folder is refused
     plan = load_plan_file(plan_path)
+    if plan.lake.model != "one-box":
+        raise ValueError(
+            "report supports one-box lakes so far; for a two-pool lake use turnback compare PLAN.json [--json --full]"
+        )
     comp = compare_plan(plan)
     figures = report_figures(comp)
     write_atomic(out, build_report_html(comp, source=plan_path.name, figures=figures), "the report")
