@@ -108,7 +108,7 @@ def _tau_p(tau: float | None, p: float | None) -> str:
 
 
 def _text(res: RecordWarnings, source: str) -> str:
-    d = res.to_dict()
+    d: dict[str, Any] = dict(res.to_dict())
     lines = [
         f"Record: {source}, {res.split.years[0]}–{res.split.years[-1]} ({res.split.years.size} years)",
         f"Whole record (window {d['window']} yr, bandwidth {d['bandwidth']:g} yr, {res.n_surrogates} surrogates, "
@@ -118,7 +118,9 @@ def _text(res: RecordWarnings, source: str) -> str:
         pair: Any = d[ind]
         lines.append(f"  {_LABEL[ind]:<17}{_tau_p(pair['tau'], pair['p_value'])}")
     lines.append("")
-    lines.append(f"Stretches ({res.split.rule}):")
+    how = "the fitted lake model" if res.split.method == "fitted_separatrix" else "change points in the TP level"
+    lines.append(f"Stretches of one state, by {how}")
+    lines.append(f"  rule: {res.split.rule}")
     lines.append(f"  {'years':<11}{'state':<8}{'variance':<19}{'lag-1 autocorr.':<19}{'skewness':<19}")
     for sw in d["stretches"]:
         years = f"{sw['from_year']}–{sw['to_year']}"
@@ -137,7 +139,7 @@ def _text(res: RecordWarnings, source: str) -> str:
         lines.append(f"  note: {note}")
     lines.append("")
     lines.extend(res.words)
-    return "\n".join(lines)
+    return "\n".join(line.rstrip() for line in lines)
 
 
 def run(args: argparse.Namespace) -> int:
