@@ -472,8 +472,17 @@ def split_record(
         Fitted split when a volume is known and the lake has folds;
         otherwise change points (``status = "fallback"`` when a fitted split
         was possible in principle but the fitted lake has no folds).
+
+    Raises
+    ------
+    ValueError
+        When a lake model is given without a volume.
     """
-    if not fit or volume_m3 is None:
+    if not fit:
+        return split_by_change_points(series)
+    if volume_m3 is None:
+        if params is not None:
+            raise FieldError(("volume_m3",), "is needed to classify the years with a lake model [m³]")
         return split_by_change_points(series)
     if params is None:
         params = fit_monitoring(series, volume_m3, replicates=FIT_REPLICATES, rng=rng)

@@ -82,6 +82,8 @@ def test_lake_without_folds_falls_back_to_change_points() -> None:
     assert "no folds" in split.notes[0]
     assert split_record(rec.series).method == "change_points"  # no volume: change points
     assert split_record(rec.series, volume_m3=VOLUME_M3, fit=False).method == "change_points"
+    with pytest.raises(ValueError, match="volume_m3 is needed"):
+        split_record(rec.series, params=DEMO_PARAMETERS)
 
 
 def test_a_steady_record_is_one_stretch() -> None:
