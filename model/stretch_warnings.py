@@ -33,6 +33,15 @@ The whole-record indicators use :data:`DEFAULT_SEED` and
 :data:`DEFAULT_SURROGATES`, the record view's values, so both give the same
 numbers.  A stretch and its sensitivity cells use the same seed.
 
+Words
+-----
+:func:`stretch_words` gives one sentence for the split, one per stretch
+("Before the 1989 shift to turbid water …", "Now (clear water since
+2009, …) …") and a closing reminder.  A rise of the variance or the lag-1
+autocorrelation counts as **seen** when τ ≥ 0.1 and p ≤ 0.05 (the
+thresholds of the record view's summaries), "a little, could well be
+chance" when τ ≥ 0.1 and p > 0.05, and not seen otherwise.
+
 A rising indicator is not a forecast: indicators can rise for other
 reasons and stay flat before a shift, and a few decades of annual data give
 the tests little power.
@@ -87,9 +96,6 @@ DEFAULT_SEED = 20261202
 WINDOW_FRACTIONS = (0.25, 0.5, 0.75)
 #: Detrending bandwidths of the sensitivity grid, as fractions of the stretch.
 BANDWIDTH_FRACTIONS = (0.1, 0.2, 0.5)
-#: Default window and bandwidth fractions (today's conventions).
-DEFAULT_WINDOW_FRACTION = 0.5
-DEFAULT_BANDWIDTH_FRACTION = 0.2
 
 NOT_A_FORECAST = (
     "Rising signs are not a forecast: they can rise for other reasons and can stay flat before a shift "
