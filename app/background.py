@@ -1,7 +1,9 @@
 """Long work in the background: the cache folder, the callback manager, cancelling and progress.
 
 Fits and ensembles run as Dash background callbacks on a diskcache manager
-(``$TURNBACK_CACHE_DIR``, default a per-user temp folder).  A run that can
+(``$TURNBACK_CACHE_DIR``, default a per-user temp folder), or on Celery
+workers through Redis when ``$TURNBACK_REDIS_URL`` is set (``turnback serve
+--redis-url``, ``turnback worker``).  A run that can
 stop early takes a cancel hook: the Cancel button leaves a flag file named
 by the run's random token in a folder of the cache, and the run's hook sees
 it between chunks of work (:func:`model.scenario.compare_plan` then raises
@@ -38,8 +40,46 @@ def cache_dir() -> Path:
     return Path(tempfile.gettempdir()) / f"turnback-cache-{os.getuid() if hasattr(os, 'getuid') else 'user'}"
 
 
-def make_manager() -> DiskcacheManager:
-    """The background-callback manager on the cache folder."""
+#: Environment variable that moves background jobs to Celery workers through Redis (``serve --redis-url``).
+REDIS_URL_ENV = "TURNBACK_REDIS_URL"
+
+
+def redis_url() -> str | None:
+    """The Redis URL of the job queue, or None for the embedded default."""
+    return os.environ.get(REDIS_URL_ENV, "").strip() or None
+
+
+_CELERY: dict[str, Any] = {}
+
+
+def celery_app(url: str) -> Any:
+    """The Celery application of the job queue at ``url`` (one per process), Redis as broker and result store."""
+    if url not in _CELERY:
+        from celery import Celery
+
+        app = Celery("turnback", broker=url, backend=url)
+        app.conf.update(
+            task_acks_late=True,  # a job whose worker dies is given to another
+            worker_prefetch_multiplier=1,
+            broker_connection_retry_on_startup=True,
+            result_expires=86400,
+        )
+        _CELERY[url] = app
+    return _CELERY[url]
+
+
+def make_manager() -> Any:
+    """The background-callback manager: Celery through Redis when configured, else diskcache on the cache folder.
+
+    With diskcache (the default) jobs run in processes on this machine and
+    every server worker shares the cache folder; with Redis they run in
+    ``turnback worker`` processes, here or on other machines.
+    """
+    url = redis_url()
+    if url:
+        from dash import CeleryManager
+
+        return CeleryManager(celery_app(url))
     return DiskcacheManager(diskcache.Cache(str(cache_dir())))
 
 
