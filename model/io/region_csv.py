@@ -116,12 +116,10 @@ class Region:
     entries : tuple
         One entry per lake in the order of the lake table: a
         :class:`~turnback.model.screening.RegionLake` ready to screen, or a
-        :class:`~turnback.model.screening.ScreenFailure` saying what to fix;
-        then a failure for each ``lake_id`` of the records that the lake
-        table lacks.
+        :class:`~turnback.model.screening.ScreenFailure` saying what to fix.
     notes : tuple of str
-        Things the reader ignored (unknown columns, loads of lakes without
-        records), in plain words.
+        Things the reader ignored (unknown columns, records of lakes not in
+        the table, loads of lakes without records), in plain words.
     """
 
     entries: tuple[RegionLake | ScreenFailure, ...]
@@ -480,8 +478,8 @@ def read_region(
     Returns
     -------
     Region
-        One entry per lake in the lake table's order (a lake or a failure),
-        then a failure for each lake of the records missing from the table.
+        One entry per lake in the lake table's order (a lake or a failure);
+        records of lakes missing from the table are ignored, with a note.
 
     Raises
     ------
@@ -532,15 +530,13 @@ def read_region(
         else:
             entries.append(_with(lake, record=rec, notes=()))
     in_table = {lid for _, lid, _ in table}
-    for lake_id in series:
-        if lake_id not in in_table:
-            entries.append(
-                ScreenFailure(
-                    lake_id,
-                    f"lake {lake_id!r} is in {records_label} but not in {lakes_label}; add a row for it "
-                    "(lake_id, volume_m3, load_kg_yr)",
-                )
-            )
+    orphans = [lake_id for lake_id in series if lake_id not in in_table]
+    if orphans:
+        shown = ", ".join(repr(o) for o in orphans[:3]) + (f" and {len(orphans) - 3} more" if len(orphans) > 3 else "")
+        notes.append(
+            f"{records_label}: rows of {len(orphans)} lake{'s' if len(orphans) > 1 else ''} not in {lakes_label} "
+            f"ignored ({shown}); add a row to {lakes_label} to screen them"
+        )
     return Region(entries=tuple(entries), notes=tuple(notes))
 
 
