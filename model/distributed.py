@@ -172,18 +172,16 @@ def screen_region(
         try:
             client = Client(address, timeout=CONNECT_TIMEOUT, set_as_default=False)
         except (OSError, TimeoutError) as exc:
-            raise FieldError(
-                ("scheduler",),
+            raise ValueError(
                 f"cannot reach a Dask scheduler at {address} ({exc}); start one with 'dask scheduler' "
-                "or use --scheduler local",
+                "or use --scheduler local"
             ) from None
         with client:
             try:
                 client.wait_for_workers(1, timeout=CONNECT_TIMEOUT)
             except TimeoutError:
-                raise FieldError(
-                    ("scheduler",),
-                    f"the Dask scheduler at {address} has no workers; start some with 'dask worker {address}'",
+                raise ValueError(
+                    f"the Dask scheduler at {address} has no workers; start some with 'dask worker {address}'"
                 ) from None
             threads = sum(int(w.get("nthreads", 1)) for w in client.scheduler_info()["workers"].values())
             return screen_on_client(
