@@ -10,10 +10,13 @@ turns each of its lakes into a :class:`~turnback.model.screening.ScreenFailure`
 saying so; it never stops the batch.
 
 ``scheduler="local"`` starts a :class:`distributed.LocalCluster` of worker
-processes, one thread each, without the web dashboard.  With one worker, or
-a batch that is a single chunk (a few hundred analysis-only lakes at most),
-the lakes are screened in this process instead: starting workers would cost
-more than it saves.  Any other
+processes, one thread each, without the web dashboard.  The lakes are
+screened in this process instead when that is as fast: with one worker, a
+batch that is a single chunk, or, when the number of workers is not given,
+a batch whose estimated single-core work is under :data:`INLINE_SECONDS`
+(:func:`turnback.model.screening.estimated_seconds`; 10,000 analysis-only
+lakes take about one second), since starting worker processes takes a
+second or more.  Any other
 ``scheduler`` is the address of a running scheduler (``tcp://host:8786``),
 whose workers must have the same version of ``turnback`` installed.
 
@@ -32,15 +35,34 @@ from distributed import Client, Future, LocalCluster, as_completed
 
 from .bootstrap import DEFAULT_REPLICATES
 from .progress import Progress, report
-from .screening import RegionLake, ScreenFailure, ScreenResult, plan_chunks, screen_chunk, screen_many
+from .screening import (
+    RegionLake,
+    ScreenFailure,
+    ScreenResult,
+    estimated_seconds,
+    plan_chunks,
+    screen_chunk,
+    screen_many,
+)
 from .validation import FieldError
 
-__all__ = ["DEFAULT_RETRIES", "check_address", "default_workers", "screen_on_client", "screen_region"]
+__all__ = [
+    "CONNECT_TIMEOUT",
+    "DEFAULT_RETRIES",
+    "INLINE_SECONDS",
+    "check_address",
+    "default_workers",
+    "screen_on_client",
+    "screen_region",
+]
 
 #: Times a task that raised is run again (a worker's death is handled by the scheduler besides).
 DEFAULT_RETRIES = 3
 #: Seconds to wait for a scheduler to answer, and for its first worker.
 CONNECT_TIMEOUT = 15.0
+#: Below this much single-core work [s] the local scheduler screens in this process, unless workers are asked for:
+#: starting worker processes takes a second or more.
+INLINE_SECONDS = 2.0
 
 _ADDRESS = re.compile(r"^(tcp|tls|ucx|ws|wss)://[^\s/]+:\d+/?$|^[A-Za-z0-9_.\-\[\]:]+:\d+$")
 
@@ -146,8 +168,9 @@ def screen_region(
         ``"local"`` for a :class:`distributed.LocalCluster` on this machine, or
         the address of a running scheduler (``tcp://host:8786``).
     workers : int, optional
-        Local worker processes (default: this machine's cores); not used with
-        an address, where the cluster's own workers run the tasks.
+        Local worker processes (default: this machine's cores, and a small
+        batch runs in this process); not used with an address, where the
+        cluster's own workers run the tasks.
     progress : callable(fraction, message), optional
     retries : int
         Times a task that raised is run again.
@@ -196,7 +219,8 @@ def screen_region(
     n_workers = default_workers() if workers is None else workers
     if not 1 <= n_workers <= 1024:
         raise FieldError(("workers",), f"must be between 1 and 1024; got {n_workers}")
-    if n_workers == 1 or len(plan_chunks(lakes, n_workers)) == 1:
+    small = workers is None and estimated_seconds(lakes, replicates) < INLINE_SECONDS
+    if small or n_workers == 1 or len(plan_chunks(lakes, n_workers)) == 1:
         return screen_many(lakes, replicates=replicates, rng=rng, progress=progress)
     with (
         LocalCluster(
