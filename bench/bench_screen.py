@@ -102,7 +102,7 @@ def analysis_peer(lakes: list[tuple[str, float, float, LakeParameters]]) -> tupl
     return time.perf_counter() - t0, tips
 
 
-def bench_analysis(n: int, workers: int) -> None:
+def bench_analysis(n: int, workers: int, with_cluster: bool = True) -> None:
     lakes = invented_lakes(n)
     peer_s, peer_tips = analysis_peer(lakes)
     runs = {}
@@ -110,7 +110,10 @@ def bench_analysis(n: int, workers: int) -> None:
         csv_path = Path(tmp) / "LAKES.csv"
         write_lakes_csv(csv_path, lakes)
         base = [sys.executable, "-m", "turnback", "screen", str(csv_path), "--json"]
-        for label, extra in (("default", []), (f"--workers {workers}", ["--workers", str(workers)])):
+        modes: list[tuple[str, list[str]]] = [("default", [])]
+        if with_cluster:
+            modes.append((f"--workers {workers}", ["--workers", str(workers)]))
+        for label, extra in modes:
             wall, peak_mb, stdout = run_with_peak_memory(base + extra)
             data = json.loads(stdout)
             assert len(data["lakes"]) == n and not data["failed"]

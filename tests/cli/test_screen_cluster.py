@@ -22,8 +22,8 @@ from turnback.model.screening import RegionLake, ScreenFailure, ScreenResult, sc
 
 ROOT = Path(__file__).resolve().parents[2]
 REGION = ROOT / "sample_data" / "region"
-REPLICATES = 150
-N_FITTED = 10
+REPLICATES = 100
+N_FITTED = 6
 
 pytestmark = pytest.mark.slow
 
@@ -43,7 +43,7 @@ def _lake_table(tmp: Path, keep: list[str]) -> Path:
 
 @pytest.fixture(scope="module")
 def region(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[RegionLake], list[ScreenResult]]:
-    """The demo lakes with parameters and ten fitted ones, and what the in-process loop says of them."""
+    """The demo lakes with parameters and six fitted ones, and what the in-process loop says of them."""
     every = read_region(REGION / "LAKES.csv", REGION / "RECORDS.csv").lakes
     lakes = [lk for lk in every if not lk.fitted] + [lk for lk in every if lk.fitted][:N_FITTED]
     order = {lk.lake_id: i for i, lk in enumerate(every)}
@@ -88,6 +88,16 @@ def cluster(
             if proc.poll() is None:
                 os.kill(proc.pid, signal.SIGKILL)
             proc.wait(timeout=30)
+
+
+def test_a_local_cluster_gives_what_the_in_process_loop_gives(
+    region: tuple[Path, list[RegionLake], list[ScreenResult]],
+) -> None:
+    _, lakes, reference = region
+    seen: list[float] = []
+    out = dist.screen_region(lakes, replicates=REPLICATES, rng=1, workers=2, progress=lambda f, m: seen.append(f))
+    assert out == reference
+    assert len(seen) == N_FITTED + 1 and seen[-1] == 1.0  # one task per fitted lake, one for the others
 
 
 def test_cluster_results_equal_the_local_run_lake_for_lake(
