@@ -34,7 +34,7 @@ import dask.system
 from distributed import Client, Future, LocalCluster, as_completed
 
 from .bootstrap import DEFAULT_REPLICATES
-from .progress import Progress, report
+from .progress import Cancel, Progress, RunCancelled, check_cancel, report
 from .screening import (
     RegionLake,
     ScreenFailure,
@@ -104,6 +104,7 @@ def screen_on_client(
     rng: int | None = 1,
     progress: Progress | None = None,
     retries: int = DEFAULT_RETRIES,
+    cancel: Cancel | None = None,
 ) -> list[Outcome]:
     """Screen ``lakes`` through a connected Dask client; results in input order.
 
@@ -119,6 +120,10 @@ def screen_on_client(
         Called in this process as each chunk comes back.
     retries : int
         Passed to ``Client.submit``.
+    cancel : callable() -> bool, optional
+        Asked as each chunk comes back; when it returns True the remaining
+        tasks are cancelled and :class:`~turnback.model.progress.RunCancelled`
+        is raised.
     """
     n = len(lakes)
     chunks = plan_chunks(lakes, n_workers)
@@ -128,18 +133,23 @@ def screen_on_client(
         futures[fut] = idx
     out: list[Outcome | None] = [None] * n
     done = 0
-    for fut in as_completed(list(futures), loop=client.loop):
-        idx = futures[fut]
-        try:
-            results = fut.result()
-        except Exception as exc:  # a chunk that failed on every try: its lakes fail, the batch goes on
-            message = _chunk_failed(exc)
-            results = [ScreenFailure(lakes[i].lake_id, message) for i in idx]
-        for i, res in zip(idx, results, strict=True):
-            out[i] = res
-        done += len(idx)
-        report(progress, done / n, f"{done} of {n} lakes screened")
-        fut.release()
+    try:
+        for fut in as_completed(list(futures), loop=client.loop):
+            check_cancel(cancel)
+            idx = futures[fut]
+            try:
+                results = fut.result()
+            except Exception as exc:  # a chunk that failed on every try: its lakes fail, the batch goes on
+                message = _chunk_failed(exc)
+                results = [ScreenFailure(lakes[i].lake_id, message) for i in idx]
+            for i, res in zip(idx, results, strict=True):
+                out[i] = res
+            done += len(idx)
+            report(progress, done / n, f"{done} of {n} lakes screened")
+            fut.release()
+    except RunCancelled:
+        client.cancel([f for f in futures if not f.done()])
+        raise
     assert all(o is not None for o in out)
     return [o for o in out if o is not None]
 
@@ -153,6 +163,7 @@ def screen_region(
     workers: int | None = None,
     progress: Progress | None = None,
     retries: int = DEFAULT_RETRIES,
+    cancel: Cancel | None = None,
 ) -> list[Outcome]:
     """Screen a region's lakes on this machine's cores or on a running Dask cluster.
 
@@ -174,6 +185,10 @@ def screen_region(
     progress : callable(fraction, message), optional
     retries : int
         Times a task that raised is run again.
+    cancel : callable() -> bool, optional
+        Asked between lakes (in this process) or chunks (on workers);
+        :class:`~turnback.model.progress.RunCancelled` is raised when it
+        returns True.
 
     Returns
     -------
@@ -215,13 +230,14 @@ def screen_region(
                 rng=rng,
                 progress=progress,
                 retries=retries,
+                cancel=cancel,
             )
     n_workers = default_workers() if workers is None else workers
     if not 1 <= n_workers <= 1024:
         raise FieldError(("workers",), f"must be between 1 and 1024; got {n_workers}")
     small = workers is None and estimated_seconds(lakes, replicates) < INLINE_SECONDS
     if small or n_workers == 1 or len(plan_chunks(lakes, n_workers)) == 1:
-        return screen_many(lakes, replicates=replicates, rng=rng, progress=progress)
+        return screen_many(lakes, replicates=replicates, rng=rng, progress=progress, cancel=cancel)
     with (
         LocalCluster(
             n_workers=n_workers,
@@ -233,5 +249,12 @@ def screen_region(
         Client(cluster, set_as_default=False) as client,
     ):
         return screen_on_client(
-            client, lakes, n_workers=n_workers, replicates=replicates, rng=rng, progress=progress, retries=retries
+            client,
+            lakes,
+            n_workers=n_workers,
+            replicates=replicates,
+            rng=rng,
+            progress=progress,
+            retries=retries,
+            cancel=cancel,
         )

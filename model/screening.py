@@ -50,7 +50,7 @@ from .bootstrap import DEFAULT_REPLICATES, Scheme
 from .equilibrium import Regime, folds, read_state, regime_from_folds
 from .fit import fit_monitoring
 from .params import LakeParameters
-from .progress import Progress, report
+from .progress import Cancel, Progress, check_cancel, report
 from .record import MonitoringSeries
 from .validation import FieldError, number, text
 
@@ -347,17 +347,21 @@ def screen_many(
     scheme: Scheme = "recursive",
     level: float = 0.9,
     progress: Progress | None = None,
+    cancel: Cancel | None = None,
 ) -> list[ScreenResult | ScreenFailure]:
     """Screen lakes one after another, in order; a lake that fails becomes a :class:`ScreenFailure`.
 
     A bad lake never stops the batch: a ``ValueError`` (bad input) or an
     arithmetic error becomes a failure with its message; any other error
-    becomes a failure that says it is an internal error.  Arguments as
-    :func:`screen_lake`.
+    becomes a failure that says it is an internal error.  ``progress`` is
+    called after each lake; ``cancel()`` is asked before each and raises
+    :class:`~turnback.model.progress.RunCancelled` when it returns True.
+    Other arguments as :func:`screen_lake`.
     """
     out: list[ScreenResult | ScreenFailure] = []
     n = len(lakes)
     for i, lake in enumerate(lakes):
+        check_cancel(cancel)
         try:
             out.append(screen_lake(lake, replicates=replicates, rng=rng, scheme=scheme, level=level))
         except (ValueError, ArithmeticError) as exc:

@@ -18,6 +18,7 @@ from distributed import Client
 from turnback.app.cli import main
 from turnback.model import distributed as dist
 from turnback.model.io.region_csv import read_region
+from turnback.model.progress import RunCancelled
 from turnback.model.screening import RegionLake, ScreenFailure, ScreenResult, screen_many
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -114,6 +115,26 @@ def test_cluster_results_equal_the_local_run_lake_for_lake(
     data = json.loads(out.out)
     assert data["failed"] == []
     assert data["lakes"] == json.loads(json.dumps([r.to_dict() for r in reference]))
+
+
+def test_a_cancelled_run_stops_and_leaves_the_workers_idle(
+    cluster: tuple[str, Client, dict[int, Any]],
+    region: tuple[Path, list[RegionLake], list[ScreenResult]],
+) -> None:
+    _, client, _ = cluster
+    _, lakes, _ = region
+    asked: list[int] = []
+
+    def cancel() -> bool:
+        asked.append(1)
+        return len(asked) >= 2  # after the first chunk is back
+
+    with pytest.raises(RunCancelled):
+        dist.screen_on_client(client, lakes, n_workers=2, replicates=REPLICATES, rng=1, cancel=cancel)
+    deadline = time.monotonic() + 30
+    while any(client.processing().values()) and time.monotonic() < deadline:
+        time.sleep(0.05)
+    assert not any(client.processing().values())
 
 
 def test_a_worker_killed_mid_run_loses_no_lake(

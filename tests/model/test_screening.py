@@ -15,6 +15,7 @@ from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from turnback.model.fit import fit_monitoring
 from turnback.model.io.monitoring_csv import parse_monitoring
 from turnback.model.params import LakeParameters
+from turnback.model.progress import RunCancelled
 from turnback.model.record import MonitoringSeries
 from turnback.model.screening import (
     MAX_ANALYSIS_CHUNK,
@@ -155,6 +156,14 @@ def test_screen_many_keeps_order_and_never_stops_on_a_bad_lake() -> None:
     assert [type(o) for o in out] == [ScreenResult, ScreenFailure, ScreenFailure, ScreenResult]
     assert "7 consecutive years" in out[2].message  # type: ignore[union-attr]
     assert seen == [0.25, 0.5, 0.75, 1.0]
+
+
+def test_screen_many_stops_when_cancelled() -> None:
+    lakes = [lake(f"P{i}", params=DEMO_PARAMETERS) for i in range(5)]
+    done: list[str] = []
+    with pytest.raises(RunCancelled):
+        screen_many(lakes, progress=lambda f, m: done.append(m), cancel=lambda: len(done) >= 2)
+    assert done == ["1 of 5 lakes screened", "2 of 5 lakes screened"]
 
 
 def test_failures_have_the_contract_keys() -> None:
