@@ -48,6 +48,7 @@ def test_wheel_installs_alone_and_serves(tmp_path: Path) -> None:
     tops = {n.split("/")[0] for n in names if not n.split("/")[0].endswith(".dist-info")}
     assert tops == {"turnback"}
     for needed in ("turnback/assets/turnback.css", "turnback/sample_data/amberlin_monitoring.csv",
+                   "turnback/sample_data/region/LAKES.csv", "turnback/sample_data/region/RECORDS.csv",
                    "turnback/model/py.typed", "turnback/app/py.typed", "turnback/__main__.py"):
         assert needed in names
 
@@ -76,6 +77,12 @@ def test_wheel_installs_alone_and_serves(tmp_path: Path) -> None:
     assert json.loads(out.stdout)["regime"] == "hysteretic"
     assert subprocess.run([py, "-m", "turnback", "analyze", "--demo"], cwd=work, env=env,
                           capture_output=True).returncode == 0
+    region = Path(site, "turnback", "sample_data", "region")  # the demo region, on Dask workers from the wheel
+    out = subprocess.run([turnback, "screen", str(region / "LAKES.csv"), "--records", str(region / "RECORDS.csv"),
+                          "--replicates", "100", "--workers", "2", "--json"], cwd=work, env=env, capture_output=True,
+                         text=True)
+    assert out.returncode == 0, out.stderr
+    assert len(json.loads(out.stdout)["lakes"]) == 39
 
     port = _free_port()
     proc = subprocess.Popen([turnback, "serve", "--port", str(port), "--data-dir", str(tmp_path / "data")],
