@@ -228,9 +228,7 @@ def test_add_edit_duplicate_delete() -> None:
     res = plan_action(ids.PLAN_EDIT, form(), [0], plan, None, TODAY)
     assert res["form"]["name"] == "Scenario 1" and res["editing"]["name"] == "Scenario 1"
     editing = res["editing"]
-    res = plan_action(
-        ids.PLAN_UPDATE, res["form"] | {"cut_percent": "60", "name": "Deep cut"}, [0], plan, editing, 0
-    )
+    res = plan_action(ids.PLAN_UPDATE, res["form"] | {"cut_percent": "60", "name": "Deep cut"}, [0], plan, editing, 0)
     plan = res["plan"]
     assert [s["name"] for s in plan["scenarios"]] == ["Deep cut", "Hold"]
     assert plan["scenarios"][0]["load"]["percent"] == 60.0 and res["editing"]["name"] == "Deep cut"
