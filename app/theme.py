@@ -55,6 +55,13 @@ def graph(graph_id: str, filename: str, size_class: str) -> Any:
     )
 
 
+def both(technical: Any, plain: Any) -> list[Any]:
+    """Text in both registers; the stylesheet shows the technical one, or the plain one in the meeting view."""
+    from dash import html
+
+    return [html.Span(technical, className="tech-only"), html.Span(plain, className="meeting-only")]
+
+
 def is_meeting(toggle_value: list[str] | None) -> bool:
     """Whether the meeting-view checklist is ticked."""
     return "on" in (toggle_value or [])
