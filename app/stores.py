@@ -181,6 +181,7 @@ class ResultsStore(TypedDict):
     recovery: float | None
     run_at: str
     results: list[ResultEntry]
+    plan: NotRequired[list[dict[str, Any]]]  # the plan's scenarios when it ran (the results go stale when they change)
 
 
 # --------------------------------------------------------------------------

@@ -8,7 +8,8 @@ import dash_ag_grid as dag
 from dash import dcc, html
 
 from ... import ids
-from ...theme import graph_config
+from ...theme import graph
+from ...vocabulary import TROPHIC_RULE
 from .figures import FIGURES, table_columns
 
 INTRO = (
@@ -33,12 +34,13 @@ DEFINITIONS = (
     "('–' when none start clear). "
     "Recovery year: the first year (year 0 is the start) in which a member is clear and stays clear for the "
     "scenario's number of consecutive years (3 unless set), all within the horizon. The median counts members "
-    "that never recover as never; '–' when fewer than half recover. A lake that starts clear counts as recovered "
-    "in year 0, so read it with 'Turbid again after recovering': the share of recovered members that turn "
-    "turbid later in the horizon. "
-    "Median final TP: ensemble median in the final year; the Secchi depth and trophic state are what a typical "
-    "phosphorus-limited lake with that TP shows in summer (Carlson 1977 index equivalence; Carlson & Simpson "
-    "1996 bands; OECD 1982 classes, for annual means), not a forecast for this lake. "
+    "that never recover as never; '–' when fewer than half recover. A lake that starts clear has nothing to "
+    "recover from: its recovery columns read 'not applicable', and a lake that flips is never counted as "
+    "recovered. "
+    "Median final TP: ensemble median in the final year; the Secchi depth is what a typical phosphorus-limited "
+    "lake with that TP shows in summer (Carlson 1977 index equivalence), not a forecast for this lake. "
+    + TROPHIC_RULE
+    + " "
     "Load cut: the years' do-nothing load (held where it starts) minus the scheduled load, summed; in-lake "
     "removal: P actually taken out (mean over members)."
 )
@@ -209,6 +211,7 @@ def _form() -> html.Div:
             html.Div(
                 [
                     html.Button("Add to the plan", id=ids.PLAN_ADD, n_clicks=0),
+                    html.Button("New scenario (clean form)", id=ids.PLAN_NEW, n_clicks=0, className="secondary"),
                     html.Button(
                         "Save changes to the scenario being edited",
                         id=ids.PLAN_UPDATE,
@@ -280,6 +283,7 @@ def _results_card() -> html.Div:
     return html.Div(
         [
             html.H2("Outcomes side by side"),
+            html.Div(id=ids.PLAN_STALE, role="alert"),
             html.Div(id=ids.PLAN_RESULTS_NOTE, className="readout-row"),
             html.P("Click a column heading to sort.", className="hint"),
             dag.AgGrid(
@@ -320,7 +324,7 @@ def _results_card() -> html.Div:
             html.Div(id=ids.PLAN_EXPORT_MESSAGE, className="field-message", role="alert"),
             html.Div(
                 [
-                    dcc.Graph(id=graph_id, config=graph_config(f"turnback-plan-{key}"))
+                    graph(graph_id, f"turnback-plan-{key}", "graph-plan")
                     for key, graph_id in zip(FIGURES, GRAPHS, strict=True)
                 ],
                 className="plan-figures",
