@@ -8,7 +8,7 @@ import dash_ag_grid as dag
 from dash import dcc, html
 
 from ... import ids
-from ...theme import graph
+from ...theme import both, graph
 from ...vocabulary import TROPHIC_RULE
 from .figures import FIGURES, table_columns
 
@@ -50,6 +50,20 @@ PRECAUTION_HINT = (
     "noise, members, seed and clear-state rule. The ± is its Monte-Carlo error (one standard error)."
 )
 
+DEFINITIONS_PLAIN = (
+    "Each plan is run many times with the inflow swinging from year to year. Clear: the lake is on the clear side "
+    "of the dividing line that year. 'Chance it turns green' counts runs that start clear and turn turbid in some "
+    "later year. 'Typical year it is clear again' is for a lake that starts turbid: the year half the runs are "
+    "clear and stay clear; a lake that starts clear reads 'not applicable'. The see-through depth and nutrient "
+    "level are what a typical lake with that much phosphorus shows in summer, not a forecast for this lake. A "
+    "'Do nothing' plan, the inflow held where it is now, is added to every run for comparison."
+)
+PRECAUTION_HINT_PLAIN = (
+    "The highest inflow that keeps the chance of the lake turning green within the years given below the limit, "
+    "for a lake that starts clear, with the chosen plan's year-to-year swings. The ± is the uncertainty from "
+    "running a limited number of times."
+)
+
 #: graph ids in the order of :data:`app.views.plans.figures.FIGURES`
 GRAPHS = (ids.PLAN_TRAJECTORY_GRAPH, ids.PLAN_CLEAR_GRAPH, ids.PLAN_RECOVERY_GRAPH, ids.PLAN_LOAD_GRAPH)
 
@@ -65,7 +79,7 @@ def _input(key: str, value: str = "", placeholder: str = "", wide: bool = False)
     )
 
 
-def _field(key: str, label: str, value: str = "", placeholder: str = "", wide: bool = False) -> html.Div:
+def _field(key: str, label: Any, value: str = "", placeholder: str = "", wide: bool = False) -> html.Div:
     return html.Div(
         [html.Label(label, htmlFor=ids.PLAN_FORM[key]), _input(key, value, placeholder, wide)],
         className="field",
@@ -171,24 +185,38 @@ def _form() -> html.Div:
             ),
             html.Fieldset(
                 [
-                    html.Legend("Variability and ensemble"),
+                    html.Legend(both("Variability and ensemble", "Year-to-year swings and simulated runs")),
                     html.Div(
                         [
-                            _field("cv", "Load variability (CV)", "0.2"),
-                            _field("noise_sd", "Process noise sd [kg]", placeholder="none"),
-                            _field("members", "Members", "500"),
-                            _field("seed", "Seed", "1", placeholder="fresh each run"),
+                            _field("cv", both("Load variability (CV)", "Swing in inflow (0.2 = 20%)"), "0.2"),
+                            _field(
+                                "noise_sd",
+                                both("Process noise sd [kg]", "Random swing in the lake (kg)"),
+                                placeholder="none",
+                            ),
+                            _field("members", both("Members", "Simulated runs"), "500"),
+                            _field("seed", both("Seed", "Repeatable number"), "1", placeholder="fresh each run"),
                         ],
                         className="plan-fields",
                     ),
                     html.Details(
                         [
-                            html.Summary("Clear-state rule and recovery"),
+                            html.Summary(both("Clear-state rule and recovery", "When the lake counts as clear")),
                             dcc.RadioItems(
                                 id=f["clear_rule"],
                                 options=[
-                                    {"label": "below the unstable equilibrium (default)", "value": "separatrix"},
-                                    {"label": "below the TP of the tipping fold", "value": "tipping_fold"},
+                                    {
+                                        "label": html.Span(
+                                            both("below the unstable equilibrium (default)", "below the dividing line")
+                                        ),
+                                        "value": "separatrix",
+                                    },
+                                    {
+                                        "label": html.Span(
+                                            both("below the TP of the tipping fold", "below the tipping point's level")
+                                        ),
+                                        "value": "tipping_fold",
+                                    },
                                     {"label": "below a fixed TP", "value": "fixed"},
                                 ],
                                 value="separatrix",
@@ -307,7 +335,7 @@ def _results_card() -> html.Div:
                 },
                 className="plan-grid-table",
             ),
-            html.P(DEFINITIONS, id=ids.PLAN_DEFINITIONS, className="hint plan-definitions"),
+            html.P(both(DEFINITIONS, DEFINITIONS_PLAIN), id=ids.PLAN_DEFINITIONS, className="hint plan-definitions"),
             html.P(RESULT_CAUTION, className="treatment-caution"),
             html.Div(
                 [
@@ -338,7 +366,7 @@ def _precaution_card() -> html.Div:
     return html.Div(
         [
             html.H2("Precautionary load"),
-            html.P(PRECAUTION_HINT, className="hint"),
+            html.P(both(PRECAUTION_HINT, PRECAUTION_HINT_PLAIN), className="hint"),
             html.Label("Under the variability of", htmlFor=ids.PLAN_PREC_SCENARIO),
             dcc.RadioItems(id=ids.PLAN_PREC_SCENARIO, options=[], value=None, className="plan-radio"),
             html.Div(
