@@ -227,3 +227,46 @@ def test_screenshots_and_accessibility_of_every_view(browser: Any, app_url: str)
         assert errors == []
         context.close()
     assert found == {}
+
+
+#: words of statistics and dynamical systems the meeting register never shows
+JARGON = (
+    "separatrix",
+    "fold",
+    "bootstrap",
+    "chlorophyll",
+    "secchi",
+    "kendall",
+    "ar(1)",
+    "τ",
+    "cusp",
+    "s.e.",
+    "surrogate",
+    "trophic",
+    "tsi",
+    "who (2003)",
+    "replicates",
+    "hysteretic",
+    "bistable",
+)
+
+
+def test_the_meeting_register_carries_no_jargon(browser: Any, app_url: str) -> None:
+    context, dash, errors = open_page(browser, app_url, 1920, 1080)
+    meeting(dash)
+    found = {}
+    for view in TABS:
+        open_tab(dash, view)
+        time.sleep(0.5)
+        text = dash.page.evaluate(
+            "(() => { const root = document.getElementById('view-%s');"
+            " const svg = Array.from(root.querySelectorAll('svg text')).map(t => t.textContent).join(' ');"
+            " return root.innerText + ' ' + svg; })()"
+            % {"lake": "lake", "record": "record", "plans": "plans", "map": "map"}[view]
+        ).lower()
+        hits = [w for w in JARGON if w in text]
+        if hits:
+            found[view] = hits
+    assert found == {}
+    assert errors == []
+    context.close()

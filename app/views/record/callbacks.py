@@ -46,9 +46,12 @@ def on_upload(contents: str | None, filename: str | None) -> tuple[Any, str]:
     return record_to_store(series, name), ""
 
 
-def record_summary(record: Mapping[str, Any]) -> str:
+def record_summary(record: Mapping[str, Any], meeting: bool = False) -> str:
     n = len(record["year"])
     extra = [c for c in ("secchi_m", "chl_ug_l") if record.get(c) is not None]
+    if meeting:
+        plain = {"secchi_m": "see-through depth", "chl_ug_l": "algae"}
+        extra = [plain[c] for c in extra]
     return (
         f"On show: {record['name']}, {n} years ({record['year'][0]}–{record['year'][-1]}), "
         f"TP {min(record['tp_ug_l']):.0f}–{max(record['tp_ug_l']):.0f} µg/L, "
@@ -107,7 +110,7 @@ def on_record(
     meeting = is_meeting(meeting_value)
     words, wfig = warning_signs(record, meeting)
     return {
-        "summary": record_summary(record),
+        "summary": record_summary(record, meeting),
         "record": record_figure(record, meeting=meeting),
         "clarity": clarity_figure(record, meeting=meeting),
         "warning": wfig,
