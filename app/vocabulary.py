@@ -68,8 +68,8 @@ TERMS: dict[str, tuple[str, str]] = {
     "recovery_fold": ("recovery fold", "way-back point"),
     "cloud": ("fitted lakes (bootstrap)", "other lakes the record allows"),
     "lake_marker": ("this lake now", "this lake now"),
-    "loss_rate_axis": ("Loss rate s [yr⁻¹]", "How fast the lake loses phosphorus (share per year)"),
-    "recycling_axis": ("Maximum recycling r [kg yr⁻¹]", "Phosphorus released from the mud at most (kg/yr)"),
+    "loss_rate_axis": ("Loss rate s [yr⁻¹]", "Share of P lost a year"),
+    "recycling_axis": ("Maximum recycling r [kg yr⁻¹]", "Most P the mud releases (kg/yr)"),
     "below_zero": ("below zero load", "below zero inflow"),
 }
 
@@ -89,6 +89,12 @@ REGIMES: dict[str, tuple[str, str]] = {
     ),
 }
 #: regime names for tables and probabilities: (technical, meeting)
+#: short regime names for figure margins: (technical, meeting)
+REGIME_SHORT: dict[str, tuple[str, str]] = {
+    "reversible": ("reversible", "no tipping<br>point"),
+    "hysteretic": ("hysteretic", "tipping point"),
+    "irreversible": ("irreversible", "no way back"),
+}
 REGIME_NAMES: dict[str, tuple[str, str]] = {
     "reversible": ("reversible", "no tipping point"),
     "hysteretic": ("hysteretic", "tipping point with a harder way back"),

@@ -9,7 +9,7 @@ import plotly.graph_objects as go
 from turnback.model.regime_map import RegimeMap
 
 from ...theme import BISTABLE, CLEAR, CURRENT, FOLD, REGIME_FILL, TURBID, load_axis_title, sizes
-from ...vocabulary import regime_name, term
+from ...vocabulary import REGIME_SHORT, term
 
 
 def regime_map_figure(
@@ -29,15 +29,20 @@ def regime_map_figure(
     x_hi = max(float(np.nanmax(loads)), load_now) * 1.15
     x_lo = max(min(0.0, float(np.nanmin(loads))) * 1.05, -0.6 * x_hi)
     for reg, b_lo, b_hi in rmap.bands:
-        fig.add_hrect(
-            y0=b_lo,
-            y1=b_hi,
-            fillcolor=REGIME_FILL[reg],
-            line_width=0,
-            layer="below",
-            annotation_text=regime_name(reg, meeting),
-            annotation_position="top right",
-            annotation_font={"size": sty["font"] - 2, "color": "#444"},
+        fig.add_hrect(y0=b_lo, y1=b_hi, fillcolor=REGIME_FILL[reg], line_width=0, layer="below")
+        if max(b_lo, lo_p) >= min(b_hi, hi_p):
+            continue
+        # named in the right margin, clear of the fold lines
+        fig.add_annotation(
+            x=1.01,
+            xref="paper",
+            xanchor="left",
+            y=0.5 * (max(b_lo, lo_p) + min(b_hi, hi_p)),
+            yref="y",
+            showarrow=False,
+            align="left",
+            text=REGIME_SHORT[reg][1 if meeting else 0],
+            font={"size": sty["font"] - 3, "color": "#444"},
         )
     if x_lo < 0:
         fig.add_vrect(
@@ -118,7 +123,7 @@ def regime_map_figure(
         template="plotly_white",
         font={"size": sty["font"]},
         autosize=True,
-        margin={"l": 90, "r": 20, "t": 70, "b": 60},
+        margin={"l": 90, "r": 140, "t": 70, "b": 60},
         xaxis={"title": load_axis_title(meeting), "range": [x_lo, x_hi]},
         yaxis={"title": axis_title, "range": [lo_p, hi_p]},
         # in a band of its own above the plot, clear of the axis titles
