@@ -8,7 +8,7 @@ from ... import ids
 from ...theme import both, graph
 
 FORMAT_HINT = (
-    "CSV with one row a year: year (a whole number from 1 to 9999, consecutive), load_kg (external TP load that "
+    "CSV with one row a year: year (a four-digit calendar year, consecutive), load_kg (external TP load that "
     "year, kg), tp_ug_l (lake mean TP, µg/L); optionally secchi_m and chl_ug_l. From 10 to 5,000 years. The "
     "invented record of the demo lake is loaded to start with."
 )
