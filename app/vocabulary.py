@@ -234,7 +234,7 @@ def band_words(name: str, band: Mapping[str, Any], plausible: tuple[float, float
 #: trust check key -> (technical, meeting) sentence templates
 TRUST_WORDS: dict[str, tuple[str, str]] = {
     "at_bound": (
-        "{names} at the edge of the allowed range: the record does not pin {them} down.",
+        "{names}: at the edge of the allowed range or not informed by the record, which does not pin {them} down.",
         "Part of the fitted lake ({names}) is only a guess: the record cannot settle it.",
     ),
     "one_state": (

@@ -6,8 +6,9 @@ starts from.
 
 Trust checks (each from numbers the fit already has)
     ``at_bound``
-        a parameter estimate sits on the edge of its allowed range, so the
-        data do not pin it down;
+        a parameter estimate sits on the edge of its allowed range, or the
+        record carries no information on it (no standard error), so the data
+        do not pin it down;
     ``one_state``
         the record shows one state only, so the threshold ending the other
         is not informed by it;
@@ -148,7 +149,7 @@ def fit_trust(
     """
     limit = 2.0 / math.sqrt(max(diagnostics.n, 1))
     lag1 = diagnostics.lag1_autocorrelation
-    at_bound = tuple(e.name for e in estimates if e.at_bound)
+    at_bound = tuple(e.name for e in estimates if e.at_bound or not e.identified)
     checks = (
         TrustCheck("at_bound", not at_bound, names=at_bound),
         TrustCheck("one_state", side == "both", side=side),

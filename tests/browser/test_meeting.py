@@ -259,10 +259,10 @@ def test_the_meeting_register_carries_no_jargon(browser: Any, app_url: str) -> N
         open_tab(dash, view)
         time.sleep(0.5)
         text = dash.page.evaluate(
-            "(() => { const root = document.getElementById('view-%s');"
+            "(id) => { const root = document.getElementById(id);"
             " const svg = Array.from(root.querySelectorAll('svg text')).map(t => t.textContent).join(' ');"
-            " return root.innerText + ' ' + svg; })()"
-            % {"lake": "lake", "record": "record", "plans": "plans", "map": "map"}[view]
+            " return root.innerText + ' ' + svg; }",
+            f"view-{view}",
         ).lower()
         hits = [w for w in JARGON if w in text]
         if hits:

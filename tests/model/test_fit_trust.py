@@ -59,6 +59,8 @@ def test_levels() -> None:
     assert [c.key for c in many.failed] == ["at_bound", "one_state", "autocorrelation", "few_folds"]
     assert many.failed[0].names == ("recycling_exponent",)
     assert fit_trust(est(), diag(0.0), "both", 0.9, FittedStart(1.0, "clear", True)).level == "poor"
+    blind = (*est()[:3], ParameterEstimate("recycling_exponent", 19.9, None, "", False, identified=False))
+    assert fit_trust(blind, diag(0.0), "both", 0.9, GOOD_START).failed[0].names == ("recycling_exponent",)
 
 
 def test_autocorrelation_limit_is_two_over_root_n() -> None:
