@@ -10,7 +10,7 @@ from turnback.model.equilibrium import LakeAnalysis
 from turnback.model.params import LakeParameters, LakeProfile
 
 from ... import ids
-from ...theme import TODAY, graph
+from ...theme import TODAY, both, graph
 from ...vocabulary import term
 from .settings import FIELD_RULES
 
@@ -121,11 +121,11 @@ def _removal_card() -> html.Div:
 
 
 #: big-step buttons: key -> label
-STEP_LABELS = {
+STEP_LABELS: dict[str, Any] = {
     "down": "−10%",
     "up": "+10%",
-    "past_tipping": "Just past tipping point",
-    "under_recovery": "Just under way-back point",
+    "past_tipping": both("Just past the tipping load", "Just past tipping point"),
+    "under_recovery": both("Just under the recovery load", "Just under way-back point"),
 }
 STEP_TITLES = {
     "down": "Lower the inflow by a tenth of today's",
@@ -146,7 +146,7 @@ def _load_card(profile: LakeProfile) -> html.Div:
         [
             html.Div(
                 [
-                    html.H2("Phosphorus inflow", id="load-heading"),
+                    html.H2(both("External P load", "Phosphorus inflow"), id="load-heading"),
                     html.Div(steps, className="step-row", role="group", **{"aria-label": "Big steps of the inflow"}),
                 ],
                 className="card-head",
