@@ -108,7 +108,7 @@ def _form() -> html.Div:
             ),
             html.Fieldset(
                 [
-                    html.Legend("External load"),
+                    html.Legend(both("External load", "Phosphorus inflow")),
                     dcc.RadioItems(
                         id=f["load_kind"],
                         options=[
@@ -172,7 +172,7 @@ def _form() -> html.Div:
                     ),
                     html.Div(
                         [
-                            _field("inact_percent", "Recycling cut by [%]"),
+                            _field("inact_percent", both("Recycling cut by [%]", "Release from the mud cut by [%]")),
                             _field("inact_year", "from year"),
                             _field("inact_years", "for [years]"),
                         ],
