@@ -76,15 +76,27 @@ def server_side(n_changes: int = 200, n_full: int = 30) -> tuple[float, float]:
 GD = "document.getElementById('equilibrium-graph').querySelector('.js-plotly-plot')"
 
 
-def first_figure(browser: Any, url: str) -> float:
-    """Seconds from navigation to the equilibrium figure drawn with its curve."""
-    context = browser.new_context(viewport={"width": 1920, "height": 1080})
+def first_figure(browser: Any, url: str, context: Any = None) -> float:
+    """Seconds from navigation to the equilibrium figure drawn with its curve.
+
+    A new browser context starts with an empty cache (plotly.js and the grid's scripts are fetched and parsed);
+    ``context`` reuses one whose cache is warm, as a browser that has opened the dashboard before.
+    """
+    own = context is None
+    context = context or browser.new_context(viewport={"width": 1920, "height": 1080})
     page = context.new_page()
     t0 = time.perf_counter()
     page.goto(url)
-    page.wait_for_function(f"(() => {{ const gd = {GD}; return gd && gd._fullData && gd._fullData.length > 3; }})()")
+    page.wait_for_function(
+        "(() => { const el = document.getElementById('equilibrium-graph');"
+        " const gd = el && el.querySelector('.js-plotly-plot');"
+        " return !!(gd && gd._fullData && gd._fullData.length > 3); })()",
+        polling=10,
+    )
     dt = time.perf_counter() - t0
-    context.close()
+    page.close()
+    if own:
+        context.close()
     return dt
 
 
@@ -141,6 +153,10 @@ def main() -> None:
         browser = pw.chromium.launch(executable_path=path, headless=True, args=CHROMIUM_FLAGS)
         first_figure(browser, url)  # warm the server
         firsts = [first_figure(browser, url) for _ in range(2 if quick else 5)]
+        warm_context = browser.new_context(viewport={"width": 1920, "height": 1080})
+        first_figure(browser, url, warm_context)
+        warm = [first_figure(browser, url, warm_context) for _ in range(2 if quick else 5)]
+        warm_context.close()
         page = browser.new_page(viewport={"width": 1920, "height": 1080})
         page.goto(url)
         page.wait_for_selector("#state-word")
@@ -164,8 +180,11 @@ def main() -> None:
     patch_ms, full_ms = server_side(60 if quick else 200, 10 if quick else 30)
     first, toggle = statistics.median(firsts), statistics.median(toggles)
     print("Dashboard latency in headless Chromium on loopback (one run)")
-    print(f"  first figure after navigation (warm server): median {first:.2f} s over {len(firsts)} loads;")
+    warm_first = statistics.median(warm)
+    print(f"  first figure after navigation to a warm server, new browser (empty cache): median {first:.2f} s;")
     print(f"    ratio to the {FIRST_FIGURE_TARGET_S} s target: {first / FIRST_FIGURE_TARGET_S:.2f}")
+    print(f"  first figure, browser that has opened the dashboard before (cached scripts): median {warm_first:.2f} s;")
+    print(f"    ratio to the {FIRST_FIGURE_TARGET_S} s target: {warm_first / FIRST_FIGURE_TARGET_S:.2f}")
     print(f"  meeting toggle: median {1e3 * toggle:.0f} ms over {len(toggles)} clicks;")
     print(f"    ratio to the {1e3 * TOGGLE_TARGET_S:.0f} ms target: {toggle / TOGGLE_TARGET_S:.2f}")
     print(f"  slider to redraw, fresh history: median {statistics.median(fresh):.0f} ms, p95 {pct(fresh, 0.95):.0f} ms")

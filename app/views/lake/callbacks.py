@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
+from functools import lru_cache
 from typing import Any
 
 from dash import Dash, Input, Output, Patch, State, ctx, no_update
-from turnback.model.equilibrium import analyze, folds
+from turnback.model.equilibrium import LakeAnalysis, analyze, folds
 from turnback.model.outlook import lake_outlook
 from turnback.model.params import LakeParameters, LakeProfile
 
@@ -64,7 +65,7 @@ def on_lake(lake: Lake, meeting_value: list[str] | None, history: Any, fit_data:
     params, profile = lake_from_store(lake)
     fit = fit_of(lake, fit_data)
     shown = history_of(lake, history) or new_history(lake)
-    analysis = analyze(params, n_points=600)
+    analysis = analysis_of(params, 600)
     meeting = is_meeting(meeting_value)
     slider = slider_config(analysis, profile, meeting)
     note: Any = no_update
@@ -128,6 +129,12 @@ def big_step(which: str, load_now: float, params: LakeParameters, profile: LakeP
 
 
 STEP_KEYS = {v: k for k, v in ids.STEP_BUTTONS.items()}
+
+
+@lru_cache(maxsize=32)
+def analysis_of(params: LakeParameters, n_points: int) -> LakeAnalysis:
+    """The engine's analysis of a lake, worked out once per lake (a view toggle redraws without redoing it)."""
+    return analyze(params, n_points=n_points)
 
 
 def step_session(
@@ -225,7 +232,7 @@ def on_history(tail: Any, meeting_value: list[str] | None, lake: Lake, fit_data:
     params, profile = lake_from_store(lake)
     load, p_now = tail["load"], tail["p"]
     meeting = is_meeting(meeting_value)
-    rows = build_readout(params, profile, analyze(params, n_points=10), load, p_now, meeting=meeting)
+    rows = build_readout(params, profile, analysis_of(params, 10), load, p_now, meeting=meeting)
     fit = fit_of(lake, fit_data)
     if fit:
         rows += fit_rows(dict(fit), meeting)

@@ -159,7 +159,7 @@ def equilibrium_figure(
             x=hxy["load"],
             y=hxy["tp"],
             customdata=hxy["year"],
-            mode="lines+markers",
+            mode="lines",  # one path however long the history: the redraw does not grow with markers
             name=lab["history"],
             line={"color": HISTORY, "width": max(1.5, sty["line"] - 1.5)},
             marker={"size": sty["marker"] // 2.5, "color": HISTORY},
@@ -324,7 +324,7 @@ def time_figure(
         go.Scatter(
             x=hxy["year"],
             y=hxy["tp"],
-            mode="lines+markers",
+            mode="lines",
             name=lab["tp"],
             line={"color": HISTORY, "width": sty["line"] - 1},
             marker={"size": sty["marker"] // 3},

@@ -131,8 +131,10 @@ def on_cancel(clicks: int, run: Store, prec: Store, *, folder: Path) -> tuple[An
 
 
 # results ------------------------------------------------------------------------
-def on_results(data: Store, meeting_value: list[str] | None) -> tuple[Any, ...]:
-    """Outcome table (fewer columns in the meeting view) and figures of the last run."""
+def on_results(data: Store, meeting_value: list[str] | None, tab: str | None = ids.TAB_PLANS) -> tuple[Any, ...]:
+    """Outcome table (fewer columns in the meeting view) and figures of the last run (drawn when the view is open)."""
+    if tab != ids.TAB_PLANS:
+        return (no_update,) * 6
     meeting = is_meeting(meeting_value)
     columns = table_columns(meeting)
     if not data or not data.get("results"):
@@ -362,7 +364,11 @@ def _register_results(app: Dash) -> None:
             Output(ids.PLAN_RECOVERY_GRAPH, "figure"),
             Output(ids.PLAN_LOAD_GRAPH, "figure"),
         ],
-        inputs={"data": Input(ids.PLAN_RESULTS_STORE, "data"), "meeting_value": Input(ids.MEETING_TOGGLE, "value")},
+        inputs={
+            "data": Input(ids.PLAN_RESULTS_STORE, "data"),
+            "meeting_value": Input(ids.MEETING_TOGGLE, "value"),
+            "tab": Input(ids.VIEW_TABS, "value"),
+        },
     )(on_results)
     app.callback(
         output=Output(ids.PLAN_RESULTS_NOTE, "children"),
