@@ -154,8 +154,8 @@ def step_session(
         out = lake_outlook(params, history["load"][-1], history["p"][-1], max_years=MAX_SETTLE_YEARS)
         if out.years == 0:
             return None, "The lake has already settled at this inflow.", ""
-        years = out.years or MAX_SETTLE_YEARS
-        new = advance(history, params, history["load"][-1], years, event="settle", limit=MAX_SETTLE_YEARS)
+        run = out.years or MAX_SETTLE_YEARS
+        new = advance(history, params, history["load"][-1], run, event="settle", limit=MAX_SETTLE_YEARS)
         msg = "" if out.years else f"Not settled after {MAX_SETTLE_YEARS:,} years: it is creeping near a tipping point."
         return new, msg, ""
     years, years_msg = _years(years_value)

@@ -21,6 +21,11 @@ TREATMENT_CAUTION = (
 )
 
 
+def _aria(**attrs: str) -> Any:
+    """``aria-*`` attributes for a Dash html component."""
+    return {f"aria-{k}": v for k, v in attrs.items()}
+
+
 def slider_config(analysis: LakeAnalysis, profile: LakeProfile, meeting: bool = False) -> dict[str, Any]:
     """Slider max, step and marks: 0 to about twice the tipping load, with today's load and the thresholds marked.
 
@@ -95,7 +100,7 @@ def settings_panel(params: LakeParameters, profile: LakeProfile) -> html.Details
 
 def _readout_card() -> html.Div:
     return html.Div(
-        [html.H2("What the lake is doing"), html.Div(id=ids.READOUT, className="readout", **{"aria-live": "polite"})],
+        [html.H2("What the lake is doing"), html.Div(id=ids.READOUT, className="readout", **_aria(live="polite"))],
         className="card readout-card",
     )
 
@@ -147,7 +152,7 @@ def _load_card(profile: LakeProfile) -> html.Div:
             html.Div(
                 [
                     html.H2(both("External P load", "Phosphorus inflow"), id="load-heading"),
-                    html.Div(steps, className="step-row", role="group", **{"aria-label": "Big steps of the inflow"}),
+                    html.Div(steps, className="step-row", role="group", **_aria(label="Big steps of the inflow")),
                 ],
                 className="card-head",
             ),

@@ -22,7 +22,7 @@ from .figures import clarity_figure, record_figure, warning_figure
 from .fit import FIT_SEED, fit_summary, fit_to_stores, parse_replicates, parse_volume
 
 
-def on_upload(contents: str | None, filename: str | None) -> tuple[Any, str]:
+def on_upload(contents: str | None, filename: str | None) -> tuple[Any, Any]:
     """Read an uploaded CSV; a bad file gets a message and the record on show stays."""
     if not contents:
         return no_update, ""

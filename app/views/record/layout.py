@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 from dash import dcc, html
 
 from ... import ids
@@ -16,6 +18,9 @@ FORMAT_HINT_PLAIN = (
     "A CSV file with one row a year: year, load_kg (phosphorus inflow that year, kg) and tp_ug_l (phosphorus in "
     "the lake, µg/L). At least 10 years in a row. The invented record of the demo lake is loaded to start with."
 )
+
+
+_ARIA_PROGRESS: Any = {"aria-label": "Progress of the fit"}
 
 
 def build_view() -> list[html.Div]:
@@ -52,7 +57,7 @@ def build_view() -> list[html.Div]:
                             value="0",
                             max="100",
                             style={"display": "none"},
-                            **{"aria-label": "Progress of the fit"},
+                            **_ARIA_PROGRESS,
                         ),
                         html.Span(id=ids.RECORD_PROGRESS_TEXT, className="hint", role="status"),
                     ],
