@@ -339,6 +339,7 @@ def _register_run(app: Dash, folder: Path) -> None:
         running=[
             (Output(ids.PLAN_RUN, "disabled"), True, False),
             (Output(ids.PLAN_CANCEL, "disabled"), False, True),
+            (Output(ids.PLAN_PROGRESS, "style"), {}, {"display": "none"}),
         ],
         interval=300,
         prevent_initial_call=True,

@@ -296,7 +296,7 @@ def _list_card() -> html.Div:
             ),
             html.Div(
                 [
-                    html.Progress(id=ids.PLAN_PROGRESS, value="0", max="100"),
+                    html.Progress(id=ids.PLAN_PROGRESS, value="0", max="100", style={"display": "none"}),
                     html.Span(id=ids.PLAN_PROGRESS_TEXT, className="hint"),
                 ],
                 className="progress-row",
