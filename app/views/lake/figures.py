@@ -324,10 +324,10 @@ def time_figure(
         go.Scatter(
             x=hxy["year"],
             y=hxy["tp"],
-            mode="lines",
+            mode="lines+markers",  # markers so a one-year history shows; at most 60 drawn, however long it is
             name=lab["tp"],
             line={"color": HISTORY, "width": sty["line"] - 1},
-            marker={"size": sty["marker"] // 3},
+            marker={"size": sty["marker"] // 3, "maxdisplayed": 60},
             hovertemplate="year %{x}: %{y:.1f} µg/L<extra></extra>",
         ),
         row=1,
