@@ -18,6 +18,16 @@ YEARS_INPUT = "years-per-change"
 YEARS_MESSAGE = "years-message"
 WAIT_BUTTON = "let-years-pass"
 RESET_BUTTON = "restart-history"
+HISTORY_TAIL = "history-tail"  # the last state of the history (small: what a load change needs)
+HISTORY_NOTE = "history-note"  # says when the history started again
+#: big steps of the load: button id -> what it does
+STEP_BUTTONS = {
+    "down": "step-down-10",
+    "up": "step-up-10",
+    "past_tipping": "step-past-tipping",
+    "under_recovery": "step-under-recovery",
+}
+SETTLE_BUTTON = "run-until-settled"
 
 # in-lake removal
 REMOVAL_INPUT = "removal-kg"
@@ -30,6 +40,8 @@ EQUILIBRIUM_GRAPH = "equilibrium-graph"
 TIME_GRAPH = "time-graph"
 READOUT = "readout"
 STATE_WORD = "state-word"
+STATE_DIRECTION = "state-direction"
+STATE_SENTENCE = "state-sentence"
 REGIME_WORDS = "regime-words"
 TIPPING_WORDS = "tipping-words"
 RECOVERY_WORDS = "recovery-words"
@@ -90,6 +102,9 @@ RECORD_CANCEL_BUTTON = "record-cancel"
 RECORD_PROGRESS = "record-progress"
 RECORD_PROGRESS_TEXT = "record-progress-text"
 RECORD_FIT_RESULT = "record-fit-result"
+RECORD_USE_FIT = "record-use-fit"  # "Use this fitted lake"
+RECORD_USE_MESSAGE = "record-use-message"
+FIT_TRUST = "fit-trust"
 FIT_TIPPING = "fit-tipping"  # rows of the fit summary
 FIT_RECOVERY = "fit-recovery"
 FIT_REGIME = "fit-regime"
@@ -163,6 +178,8 @@ PLAN_RUN_MESSAGE = "plan-run-message"
 
 # results
 PLAN_RESULTS_NOTE = "plan-results-note"
+PLAN_STALE = "plan-stale"  # "results out of date, run again"
+PLAN_NEW = "plan-new"  # a clean form for a new scenario
 PLAN_TABLE = "plan-table"
 PLAN_DEFINITIONS = "plan-definitions"
 PLAN_TRAJECTORY_GRAPH = "plan-trajectory-graph"

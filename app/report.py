@@ -136,14 +136,19 @@ def _table_html(comparison: Comparison) -> str:
             '<span class="arrow"> ⇅</span></th>'
         )
     out.append("</tr></thead><tbody>")
-    for r in rows:
+    for r, res in zip(rows, comparison.results, strict=True):
         rec = r["recovery_years_median"]
+        clear0 = bool(res.p_clear.size and res.p_clear[0] >= 0.5)
+        na = "not applicable (starts clear)"
         cells: list[tuple[object, str]] = [
             (r["scenario"], html.escape(r["scenario"])),
             (r["p_clear_final"], f"{_pct(r['p_clear_final'])} ± {100 * r['p_clear_final_se']:.1f}"),
-            (r["p_flip"], _pct(r["p_flip"]) if r["p_flip"] is not None else "– (none start clear)"),
-            (r["p_recovered"], _pct(r["p_recovered"])),
-            (rec, f"{rec:g}" if rec is not None else "– (fewer than half recover)"),
+            (r["p_flip"], _pct(r["p_flip"]) if r["p_flip"] is not None else "not applicable (starts turbid)"),
+            (None if clear0 else r["p_recovered"], na if clear0 else _pct(r["p_recovered"])),
+            (
+                None if clear0 else rec,
+                na if clear0 else (f"{rec:g}" if rec is not None else "– (fewer than half recover)"),
+            ),
             (
                 r["final_tp_median_ug_l"],
                 f"{r['final_tp_median_ug_l']:.1f} ({r['final_tp_p05_ug_l']:.1f}–{r['final_tp_p95_ug_l']:.1f})",

@@ -24,6 +24,12 @@ CAUTION = (
     "In-lake treatments need permits and licensed practice."
 )
 
+#: the caution in the meeting view: the same cautions, on one line
+CAUTION_SHORT = (
+    "Scenario estimates from a simplified model, not a health assessment: follow local health authorities. "
+    "In-lake treatments need permits and licensed practice."
+)
+
 #: tab value -> label, in tab order
 TABS = {
     ids.TAB_LAKE: "The lake now",
@@ -40,6 +46,7 @@ def stores(lake: LakeStore, record: RecordStore | None) -> list[dcc.Store]:
     session = [
         dcc.Store(id=ids.LAKE_STORE, storage_type="session", data=dict(lake)),
         dcc.Store(id=ids.HISTORY_STORE, storage_type="session"),
+        dcc.Store(id=ids.HISTORY_TAIL, storage_type="session"),
         dcc.Store(id=ids.RECORD_STORE, storage_type="session", data=None if record is None else dict(record)),
         dcc.Store(id=ids.FIT_STORE, storage_type="session"),
         dcc.Store(id=ids.PLAN_STORE, storage_type="session", data={"scenarios": []}),
@@ -98,7 +105,11 @@ def build_layout(lake: LakeStore, record: RecordStore | None = None) -> html.Div
         [
             *stores(lake, record),
             top_bar(profile.name),
-            html.Div(CAUTION, className="caution-banner", role="note"),
+            html.Div(
+                [html.Span(CAUTION, className="caution-full"), html.Span(CAUTION_SHORT, className="caution-short")],
+                className="caution-banner",
+                role="note",
+            ),
             html.Div(id=ids.PAGE_NOTICE, className="page-notice", role="status", **_LIVE),
             tabs(),
             *[

@@ -68,6 +68,7 @@ def surrogate_count(n_years: int) -> int:
 LABELS = {
     ids.LAKE_STORE: "the lake",
     ids.HISTORY_STORE: "the lake's history",
+    ids.HISTORY_TAIL: "the lake's latest state",
     ids.RECORD_STORE: "the monitoring record",
     ids.FIT_STORE: "the fit",
     ids.PLAN_STORE: "the plan",
@@ -190,6 +191,17 @@ def check_history(v: Any) -> None:
         _text(e, "a history's events", 40)
 
 
+def check_history_tail(v: Any) -> None:
+    if v is None:
+        return
+    d = _dict(v, "the lake's latest state")
+    _text(d.get("lake_key"), "the lake's latest state")
+    _numbers([d.get("year"), d.get("first", d.get("year"))], "the lake's latest year", 2, -1e7, 1e7)
+    _numbers([d.get("load")], "the lake's latest load", 1, 0.0, MAX_VALUE)
+    _numbers([d.get("p")], "the lake's latest P", 1, 0.0, MAX_VALUE)
+    _numbers([d.get("n")], "the history's length", 1, 1, MAX_HISTORY_POINTS)
+
+
 def check_record(v: Any) -> None:
     if v is None:
         return
@@ -278,6 +290,7 @@ def check_precaution_answer(v: Any) -> None:
 CHECKS: dict[str, Callable[[Any], None]] = {
     ids.LAKE_STORE: check_lake,
     ids.HISTORY_STORE: check_history,
+    ids.HISTORY_TAIL: check_history_tail,
     ids.RECORD_STORE: check_record,
     ids.FIT_STORE: check_fit,
     ids.PLAN_STORE: check_plan,

@@ -110,6 +110,11 @@ class FitStore(TypedDict):
     replicates: int
     cloud: list[list[float]]  # bootstrap lakes (rows of s, r, m, q) for the regime map
     observed: Observed
+    proposal: NotRequired[dict[str, Any]]  # the fitted lake (a LakeStore), put in use only by "Use this fitted lake"
+    side: NotRequired[str]  # which states the record shows: "both", "clear" or "turbid"
+    plausible: NotRequired[list[float]]  # the range the bands are clipped to [kg yr⁻¹]
+    known: NotRequired[list[str]]  # what a one-state record does say about the threshold it cannot place
+    trust: NotRequired[dict[str, Any]]  # model.fit_trust.FitTrust: level, checks, start
 
 
 class PlanStore(TypedDict):
@@ -176,6 +181,7 @@ class ResultsStore(TypedDict):
     recovery: float | None
     run_at: str
     results: list[ResultEntry]
+    plan: NotRequired[list[dict[str, Any]]]  # the plan's scenarios when it ran (the results go stale when they change)
 
 
 # --------------------------------------------------------------------------

@@ -8,6 +8,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
+from .vocabulary import term
+
 # our palette
 CLEAR = "#1f6fa8"  # clear-water branch
 TURBID = "#7a8f1c"  # turbid, algae-dominated branch
@@ -18,6 +20,8 @@ HISTORY = "#b5462f"
 CURRENT = "#e0701a"
 TODAY = "#5b4a8a"
 OBSERVED = "rgba(40,40,40,0.55)"
+BAND_TIPPING = "rgba(31,111,168,0.13)"  # the fitted tipping load's band
+BAND_RECOVERY = "rgba(122,143,28,0.15)"  # the fitted recovery load's band
 
 #: background of each regime on the regime map
 REGIME_FILL = {
@@ -26,12 +30,10 @@ REGIME_FILL = {
     "irreversible": "rgba(163, 58, 31, 0.08)",
 }
 
-#: the load axis of the equilibrium figure and the regime map: (plain words, technical)
-LOAD_AXIS = ("Phosphorus flowing in each year (kg)", "External P load L [kg yr⁻¹]")
-
 
 def load_axis_title(meeting: bool) -> str:
-    return LOAD_AXIS[0] if meeting else LOAD_AXIS[1]
+    """The inflow axis in the chosen register (see :mod:`app.vocabulary`)."""
+    return term("inflow_axis", meeting)
 
 
 def graph_config(filename: str) -> Any:
@@ -41,6 +43,23 @@ def graph_config(filename: str) -> Any:
         "toImageButtonOptions": {"format": "png", "scale": 2, "filename": filename},
         "modeBarButtonsToRemove": ["lasso2d", "select2d"],
     }
+
+
+def graph(graph_id: str, filename: str, size_class: str) -> Any:
+    """A responsive figure: it fills a box whose size the stylesheet sets (``size_class``), so it follows the window."""
+    from dash import dcc, html
+
+    return html.Div(
+        dcc.Graph(id=graph_id, config=graph_config(filename), responsive=True, style={"height": "100%"}),
+        className=f"graph {size_class}",
+    )
+
+
+def both(technical: Any, plain: Any) -> list[Any]:
+    """Text in both registers; the stylesheet shows the technical one, or the plain one in the meeting view."""
+    from dash import html
+
+    return [html.Span(technical, className="tech-only"), html.Span(plain, className="meeting-only")]
 
 
 def is_meeting(toggle_value: list[str] | None) -> bool:
@@ -59,7 +78,7 @@ class Sizes:
 
 
 NORMAL = Sizes(font=15, line=3, marker=14, text=14)
-MEETING = Sizes(font=22, line=5, marker=20, text=20)
+MEETING = Sizes(font=19, line=5, marker=17, text=19)
 
 #: figure heights [px]: figure -> (normal, meeting view)
 HEIGHTS = {

@@ -150,7 +150,8 @@ class FitResult:
 
     ``status`` is ``"ok"`` when there are no warnings and ``"warning"``
     otherwise; ``message`` is a one-line summary; ``warnings`` the
-    plain-words caveats.  ``to_dict()`` gives the JSON contract of
+    plain-words caveats; ``side`` which states the record shows
+    (``"both"``, or ``"clear"``/``"turbid"`` for a one-state record).  ``to_dict()`` gives the JSON contract of
     ``turnback fit --json``.
     """
 
@@ -169,6 +170,7 @@ class FitResult:
     draws: BootstrapDraws
     volume_m3: float | None = None
     years: tuple[int, int] | None = None
+    side: Side = "both"
 
     def to_dict(self) -> dict[str, Any]:
         """The ``turnback fit --json`` object (units kg and yr)."""
@@ -313,6 +315,7 @@ def fit_lake(
         replicates=replicates,
         replicates_used=int(np.sum(used)),
         min_fold_replicates=MIN_FOLD_REPLICATES,
+        regime_probability=regime_probability(draws),
     )
     warnings = fit_warnings(facts)
     point_regime: Regime = regime_from_folds(fs)
@@ -330,7 +333,7 @@ def fit_lake(
         regime=point_regime,
         tipping_load=tip_band,
         recovery_load=rec_band,
-        regime_probability=regime_probability(draws),
+        regime_probability=facts.regime_probability or regime_probability(draws),
         warnings=warnings,
         replicates=replicates,
         replicates_used=facts.replicates_used,
@@ -338,6 +341,7 @@ def fit_lake(
         draws=draws,
         volume_m3=volume_m3,
         years=years,
+        side=side,
     )
 
 

@@ -11,10 +11,10 @@ import math
 from dataclasses import dataclass
 from typing import Literal
 
-from .fold_bands import ThresholdBand
+from .fold_bands import RegimeProbability, ThresholdBand
 from .point_fit import ParameterEstimate, ResidualDiagnostics
 
-__all__ = ["FitFacts", "fit_warnings"]
+__all__ = ["FitFacts", "fit_warnings", "share_text"]
 
 _PLAIN = ("loss rate", "maximum recycling rate", "recycling half-saturation", "recycling exponent")
 
@@ -39,6 +39,11 @@ class FitFacts:
     estimates : tuple of ParameterEstimate
     diagnostics : ResidualDiagnostics
     replicates, replicates_used : int
+    min_fold_replicates : int
+        Fewest replicates with folds needed to quote a band.
+    regime_probability : RegimeProbability, optional
+        The bootstrap shares of each regime; the fold warnings quote them, so
+        the words never contradict the probabilities shown beside them.
     """
 
     has_folds: bool
@@ -53,6 +58,14 @@ class FitFacts:
     replicates: int
     replicates_used: int
     min_fold_replicates: int
+    regime_probability: RegimeProbability | None = None
+
+    @property
+    def fold_share(self) -> float:
+        """Share of the used refits whose lake has folds (hysteretic or irreversible) [–]."""
+        if self.regime_probability is not None:
+            return self.regime_probability.hysteretic + self.regime_probability.irreversible
+        return self.n_with_folds / self.replicates_used if self.replicates_used else 0.0
 
     @property
     def level_text(self) -> str:
@@ -63,15 +76,32 @@ def _fmt_load(v: float | None) -> str:
     return "undefined" if v is None else f"{v:,.0f}"
 
 
+def share_text(x: float) -> str:
+    """A share as a percentage that never rounds a non-zero share to 0 % or a share below 1 to 100 %."""
+    if 0.0 < x < 0.005:
+        return "under 1%"
+    if 0.995 <= x < 1.0:
+        return "over 99%"
+    return f"{x:.0%}"
+
+
 def _fold_warnings(f: FitFacts) -> list[str]:
     """Whether the record shows folds, and which threshold a one-state record leaves open."""
     out: list[str] = []
     pct = f.level_text
     if not f.has_folds and f.n_with_folds < f.min_fold_replicates:
-        out.append(
-            "Neither the fit nor its bootstrap refits show folds: the record is consistent with a reversible lake, "
-            "so there is no tipping or recovery load to report."
-        )
+        share = f.fold_share
+        if f.n_with_folds == 0 and share == 0.0:
+            out.append(
+                "Neither the fit nor any of its bootstrap refits show folds: the record is consistent with a "
+                "reversible lake, so there is no tipping or recovery load to report."
+            )
+        else:
+            out.append(
+                f"The best fit has no folds, and only {f.n_with_folds} of {f.replicates_used} bootstrap refits "
+                f"({share_text(share)}) do: too few to place a tipping or recovery load (at least "
+                f"{f.min_fold_replicates} are needed), so the record reads most like a reversible lake."
+            )
     elif f.side != "both":
         missing, shown, lost = (
             ("turbid", "clear-water", "recovery load")
@@ -123,12 +153,13 @@ def _band_warnings(f: FitFacts) -> list[str]:
     frac = f.tipping.fold_fraction
     if f.has_folds and frac < 0.95:
         out.append(
-            f"{1.0 - frac:.0%} of the bootstrap refits show no folds (a reversible lake); the intervals are over "
-            f"the {frac:.0%} that have folds."
+            f"{share_text(1.0 - frac)} of the bootstrap refits show no folds (a reversible lake); the intervals are "
+            f"over the {share_text(frac)} that have folds."
         )
     if not f.has_folds and frac > 0.0 and f.tipping.low is not None:
         out.append(
-            f"The best fit has no folds, but {frac:.0%} of the bootstrap refits do; the intervals are over those."
+            f"The best fit has no folds, but {share_text(frac)} of the bootstrap refits do; the intervals are over "
+            "those."
         )
     return out
 

@@ -12,7 +12,8 @@ header line and one row per year::
 =========  ========  ===========================================================
 column     needed    meaning
 =========  ========  ===========================================================
-year       yes       calendar year, a whole number; consecutive, ascending
+year       yes       four-digit calendar year (1000 to 9999), a whole number;
+                     consecutive, ascending
 load_kg    yes       external total phosphorus load that year [kg yr⁻¹], >= 0
 tp_ug_l    yes       annual or growing-season mean lake total phosphorus
                      [µg L⁻¹], > 0
@@ -69,7 +70,9 @@ MIN_YEARS = 10
 REQUIRED = ("year", "load_kg", "tp_ug_l")
 OPTIONAL = ("secchi_m", "chl_ug_l")
 _HEADER_HINT = "year,load_kg,tp_ug_l (optionally secchi_m,chl_ug_l)"
-_YEAR_RANGE = (1800, 2200)
+#: Years are four-digit calendar years, so a two-digit "90" is caught, and the longest record
+#: (:data:`MAX_ROWS` consecutive years) fits within the range.
+_YEAR_RANGE = (1000, 9999)
 _MAX_LISTED = 3
 
 _UNIT_HINTS = {

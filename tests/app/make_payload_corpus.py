@@ -21,7 +21,7 @@ from .payloads import base_values, compact, request_for
 OUT = Path(__file__).resolve().parent / "payload_corpus.json"
 
 STORE_IDS = {
-    "lake-store", "history-store", "record-store", "fit-store", "plan-store", "plan-editing",
+    "lake-store", "history-store", "history-tail", "record-store", "fit-store", "plan-store", "plan-editing",
     "plan-results-store", "plan-precaution-store", "plan-run-request", "plan-precaution-request",
 }  # fmt: skip
 
@@ -49,6 +49,11 @@ def _bad_stores(store: str) -> list[tuple[str, Any]]:
                                             "event": ["start"]}),
             ("a history too long", {"lake_key": "k", "year": {"$range": 25_000}, "load": compact(25_000, 1.0),
                                     "p": compact(25_000, 1.0), "event": compact(25_000, "")}),
+        ],
+        "history-tail": [
+            ("a NaN load", {"lake_key": "k", "year": 0, "load": float("nan"), "p": 1.0, "n": 1, "first": 0}),
+            ("a load of -1e6", {"lake_key": "k", "year": 0, "load": -1e6, "p": 1.0, "n": 1, "first": 0}),
+            ("a length of 10**9", {"lake_key": "k", "year": 0, "load": 1.0, "p": 1.0, "n": 10**9, "first": 0}),
         ],
         "record-store": [
             ("a 20,000-year record", {"name": "big", "year": {"$range": 20_000}, "load_kg": compact(20_000, 1.0),

@@ -70,7 +70,8 @@ def test_equilibrium_figure_layers() -> None:
     h = advance(new_history(LAKE), P, 600.0, 10)
     fig = equilibrium_figure(res, PROF, h, present_load=PROF.load_kg_per_yr, load_max=1100.0)
     assert isinstance(fig, go.Figure)
-    assert len(fig.data) == len(EQ_TRACES)
+    assert len(fig.data) >= len(EQ_TRACES)  # legend-only entries follow the fixed traces
+    assert [t.name for t in fig.data[len(EQ_TRACES) :]] == ["bistable: two stable states"]
     assert fig.data[EQ_TRACES.index("middle")].line.dash == "dash"
     assert fig.data[EQ_TRACES.index("lower")].line.dash == "solid"
     assert len(fig.data[EQ_HISTORY].x) == len(h["p"])

@@ -20,6 +20,7 @@ import pytest
 from turnback.app import ids
 from turnback.app.server import create_app
 from turnback.app.stores import new_history
+from turnback.app.views.lake.history import tail_of
 
 from ..browser.harness import serve
 from .payloads import base_values, request_for
@@ -54,13 +55,13 @@ def _post(url: str, body: dict[str, Any]) -> tuple[int, dict[str, Any], float]:
 
 
 def _session(url: str, dep: dict, values: dict, k: int, years: int, out: dict[Any, Any]) -> None:
-    history = new_history(values[f"{ids.LAKE_STORE}.data"])
+    tail = tail_of(new_history(values[f"{ids.LAKE_STORE}.data"]))
     overrides = {f"{ids.YEARS_INPUT}.value": years}
     errors, times, crossed = 0, [], 0
     for i in range(CHANGES):
         load = 100.5 + 20.0 * k + 10.0 * i  # every session its own loads (never today's 420), so a mix-up shows
         body = request_for(
-            dep, values, overrides | {f"{ids.LOAD_SLIDER}.value": load, f"{ids.HISTORY_STORE}.data": history}
+            dep, values, overrides | {f"{ids.LOAD_SLIDER}.value": load, f"{ids.HISTORY_TAIL}.data": tail}
         )
         try:
             status, resp, dt = _post(url, body)
@@ -69,15 +70,21 @@ def _session(url: str, dep: dict, values: dict, k: int, years: int, out: dict[An
             out.setdefault("why", []).append(repr(exc))
             continue
         times.append(dt)
-        new = resp.get("response", {}).get(ids.HISTORY_STORE, {}).get("data")
+        new = resp.get("response", {}).get(ids.HISTORY_TAIL, {}).get("data")
         if status != 200 or new is None:
             errors += 1
             out.setdefault("why", []).append(f"{status} {str(resp)[:200]}")
             continue
-        same_start = new["load"][: len(history["load"])] == history["load"] and new["lake_key"] == history["lake_key"]
-        if not same_start or new["load"][-1] != load:
+        # this session's own state moved on: its lake, its year plus the years asked, its load, its length
+        ours = (
+            new["lake_key"] == tail["lake_key"]
+            and new["year"] == tail["year"] + years
+            and new["n"] == tail["n"] + years + 1  # the load change itself, then one point a year
+            and new["load"] == load
+        )
+        if not ours:
             crossed += 1
-        history = new
+        tail = new
     out[k] = (errors, crossed, times)
 
 
@@ -107,18 +114,18 @@ def test_twenty_sessions_at_once_without_errors_or_cross_talk(server: Any) -> No
 def test_two_thousand_callbacks_keep_memory_flat(server: Any) -> None:
     url, dep, values = server
     proc = psutil.Process()
-    history = new_history(values[f"{ids.LAKE_STORE}.data"])
+    tail = tail_of(new_history(values[f"{ids.LAKE_STORE}.data"]))
     overrides = {f"{ids.YEARS_INPUT}.value": 1}
 
     def step(i: int) -> None:
-        # a session that restarts its history now and then, as a meeting does, so requests stay the same size
+        # the same session state every time, so requests stay the same size
         body = request_for(
             dep,
             values,
-            overrides | {f"{ids.LOAD_SLIDER}.value": 200.0 + (i % 50), f"{ids.HISTORY_STORE}.data": history},
+            overrides | {f"{ids.LOAD_SLIDER}.value": 200.0 + (i % 50), f"{ids.HISTORY_TAIL}.data": tail},
         )
         status, resp, _ = _post(url, body)
-        assert status == 200 and ids.HISTORY_STORE in resp["response"]
+        assert status == 200 and ids.HISTORY_TAIL in resp["response"]
 
     for i in range(200):  # warm up: imports, caches, first allocations
         step(i)

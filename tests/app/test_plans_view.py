@@ -46,7 +46,14 @@ from turnback.app.views.plans.form import FORM_DEFAULTS, form_from_scenario, par
 from turnback.app.views.plans.precaution import run_precaution
 from turnback.app.views.plans.readout import plan_lake, precaution_words
 from turnback.app.views.plans.saved import save_plan, saved_options
-from turnback.app.views.plans.scenarios import action_outputs, free_name, list_rows, plan_action
+from turnback.app.views.plans.scenarios import (
+    BASELINE_NAME,
+    action_outputs,
+    free_name,
+    list_rows,
+    plan_action,
+    with_baseline,
+)
 from turnback.model.clarity import clarity
 from turnback.model.clear_state import scenario_clear_below_kg
 from turnback.model.demo import DEMO_PARAMETERS as P
@@ -218,7 +225,8 @@ def test_form_round_trip(scenario: Scenario) -> None:
 def test_add_edit_duplicate_delete() -> None:
     res = plan_action(ids.PLAN_ADD, form(), [], {"scenarios": []}, None, TODAY)
     plan = res["plan"]
-    assert [s["name"] for s in plan["scenarios"]] == ["Scenario 1"] and res["form"] == {"name": "Scenario 2"}
+    assert [s["name"] for s in plan["scenarios"]] == ["Scenario 1"]
+    assert res["form"] == FORM_DEFAULTS | {"name": "Scenario 2"}  # a clean form: nothing carried over
     # a name already used is refused, the plan is unchanged
     res = plan_action(ids.PLAN_ADD, form(), [], plan, None, TODAY)
     assert "plan" not in res and "already in the plan" in res["messages"]["basics"][0]
@@ -228,12 +236,11 @@ def test_add_edit_duplicate_delete() -> None:
     res = plan_action(ids.PLAN_EDIT, form(), [0], plan, None, TODAY)
     assert res["form"]["name"] == "Scenario 1" and res["editing"]["name"] == "Scenario 1"
     editing = res["editing"]
-    res = plan_action(
-        ids.PLAN_UPDATE, res["form"] | {"cut_percent": "60", "name": "Deep cut"}, [0], plan, editing, 0
-    )
+    res = plan_action(ids.PLAN_UPDATE, res["form"] | {"cut_percent": "60", "name": "Deep cut"}, [0], plan, editing, 0)
     plan = res["plan"]
     assert [s["name"] for s in plan["scenarios"]] == ["Deep cut", "Hold"]
-    assert plan["scenarios"][0]["load"]["percent"] == 60.0 and res["editing"]["name"] == "Deep cut"
+    assert plan["scenarios"][0]["load"]["percent"] == 60.0 and res["editing"] is None
+    assert res["form"]["name"] == "Scenario 3" and res["form"]["cut_percent"] == FORM_DEFAULTS["cut_percent"]
     res = plan_action(ids.PLAN_DUPLICATE, form(), [0], plan, res["editing"], TODAY)
     plan = res["plan"]
     assert [s["name"] for s in plan["scenarios"]] == ["Deep cut", "Deep cut (copy)", "Hold"]
@@ -282,11 +289,11 @@ def test_run_reports_progress_and_matches_the_model(tmp_path: Path) -> None:
     h = new_history(LAKE)
     progress = Progress()
     data, msg = run_plan(progress, {"token": "a" * 32}, plan, LAKE, h, folder=tmp_path)
-    assert msg == "Ran 2 scenarios."
+    assert msg == "Ran 3 scenarios."  # the plan's two and the do-nothing baseline added for the run
     values = [int(v) for v, _ in progress.seen]
     assert values == sorted(values) and progress.seen[-1] == ("100", "done") and len(values) >= 3
     # the same plan run directly through the model
-    direct = compare_plan(Plan(plan_lake(LAKE, h), tuple(scenarios)))
+    direct = compare_plan(Plan(plan_lake(LAKE, h), tuple(with_baseline(scenarios, TODAY))))
     back = comparison_from_store(data)
     for a, b in zip(outcome_rows(back), outcome_rows(direct), strict=True):
         for k in a:
@@ -330,11 +337,13 @@ def test_outcome_table_adds_expected_clarity() -> None:
     _, scenarios = small_plan()
     comp = compare_plan(Plan(plan_lake(LAKE, None), tuple(scenarios)))
     rows = outcome_table(comp.results)
-    assert set(rows[0]) == set(TABLE_COLUMNS)
+    assert set(rows[0]) == set(TABLE_COLUMNS) | {"starts_clear"}
     for row, r in zip(rows, comp.results, strict=True):
         c = clarity(r.final_tp_median_ug_l)  # Carlson (1977) TSI equivalence, via model.clarity
-        assert row["secchi_m"] == c.secchi_m and row["oecd_class"] == c.oecd_class
-        assert row["tsi_class"].startswith(c.tsi_class)
+        assert row["secchi_m"] == c.secchi_m
+        # one trophic verdict: the OECD class of the TP, Carlson's index as detail
+        assert row["trophic"] == f"{c.oecd_class} (Carlson TSI {c.tsi_tp:.0f})"
+        assert row["starts_clear"] and row["recovery_years_median"] is None and row["p_recovered"] is None
         assert row["total_removed_kg"] == r.load_cut_kg + r.in_lake_removal_kg
     assert rows[0]["load_cut_kg"] > 0 and rows[1]["p_flip"] > rows[0]["p_flip"]
 
@@ -343,16 +352,16 @@ def test_results_render_and_meeting_view_is_larger(tmp_path: Path) -> None:
     plan, _ = small_plan()
     data, _ = run_plan(Progress(), {"token": "c" * 32}, plan, LAKE, None, folder=tmp_path)
     columns, table, *figs = on_results(data, [])
-    assert [r["scenario"] for r in table] == ["cut", "push"] and len(figs) == 4
+    assert [r["scenario"] for r in table] == ["cut", "push", BASELINE_NAME] and len(figs) == 4
     assert [c["field"] for c in columns] == list(TABLE_COLUMNS)
-    assert {t.name for t in figs[0].data if t.showlegend is not False} == {"cut", "push"}
+    assert {t.name for t in figs[0].data if t.showlegend is not False} == {"cut", "push", BASELINE_NAME}
     big_columns, _, *big = on_results(data, ["on"])
     assert big[0].layout.font.size > figs[0].layout.font.size
     assert [c["field"] for c in big_columns] == list(MEETING_COLUMNS)
     _, empty_table, *blank = on_results(None, [])
     assert empty_table == [] and "Run the plan" in blank[0].layout.annotations[0].text
     note = on_results_note(data, "plans", LAKE, None)
-    assert "2 scenarios" in note[0] and len(note) == 1
+    assert "3 scenarios" in note[0] and len(note) == 1
     moved = dict(new_history(LAKE), p=[3000.0])
     assert "has changed since this run" in str(on_results_note(data, "plans", LAKE, moved))
 
@@ -468,10 +477,10 @@ def test_exports(tmp_path: Path) -> None:
     assert re.search(r"<script[^>]+src=", text) is None and "plotly.js" in text.lower()
     traj, _ = export(ids.PLAN_EXPORT_TRAJECTORIES, data, None)
     rows = list(csv.reader(io.StringIO(traj["content"])))
-    assert rows[0][:3] == ["scenario", "year", "load_kg_per_yr"] and len(rows) == 1 + 2 * 31
+    assert rows[0][:3] == ["scenario", "year", "load_kg_per_yr"] and len(rows) == 1 + 3 * 31
     table, _ = export(ids.PLAN_EXPORT_TABLE, data, None)
     rows = list(csv.reader(io.StringIO(table["content"])))
-    assert rows[0] == list(TABLE_COLUMNS) and [r[0] for r in rows[1:]] == ["cut", "push"]
+    assert rows[0] == list(TABLE_COLUMNS) and [r[0] for r in rows[1:]] == ["cut", "push", BASELINE_NAME]
 
 
 def test_view_layout_ids_and_columns() -> None:
@@ -491,3 +500,39 @@ def test_view_figure_meeting_is_larger() -> None:
     small = result_figures(comp.results)["trajectory"]
     big = view_figure(result_figures(comp.results)["trajectory"], meeting=True)
     assert big.layout.font.size > small.layout.font.size and big.layout.height > small.layout.height
+
+
+def test_treatments_never_carry_over_to_the_next_scenario() -> None:
+    # "Cut 20% + alum", then a new scenario: the form it leaves behind has no treatment
+    alum = form(name="Cut 20% + alum", cut_percent="20", inact_percent="80", inact_year="1", inact_years="10")
+    res = plan_action(ids.PLAN_ADD, alum, [], {"scenarios": []}, None, TODAY)
+    assert Scenario.from_dict(res["plan"]["scenarios"][0]).treatments
+    clean = res["form"]
+    assert clean["inact_percent"] == clean["removal_kg"] == ""
+    nxt = plan_action(ids.PLAN_ADD, clean, [], res["plan"], None, TODAY)
+    assert Scenario.from_dict(nxt["plan"]["scenarios"][1]).treatments == ()
+    fresh = plan_action(ids.PLAN_NEW, alum, [], res["plan"], None, TODAY)
+    assert fresh["form"] == FORM_DEFAULTS | {"name": "Scenario 2"} and fresh["editing"] is None
+
+
+def test_a_run_adds_a_do_nothing_baseline() -> None:
+    cut = Scenario("cut", 30, LinearCut(TODAY, 40.0, 10), members=20, seed=3, variability_cv=0.1)
+    runs = with_baseline([cut], TODAY)
+    assert [s.name for s in runs] == ["cut", BASELINE_NAME]
+    base = runs[-1]
+    assert base.load == ConstantLoad(TODAY) and base.treatments == () and base.years == 30
+    assert (base.members, base.seed, base.variability_cv) == (20, 3, 0.1)
+    hold = Scenario("hold", 30, ConstantLoad(TODAY))
+    assert with_baseline([hold, cut], TODAY) == [hold, cut]  # already has one
+
+
+def test_results_go_stale_and_exports_refuse_them(tmp_path: Path) -> None:
+    from turnback.app.views.plans.callbacks import on_export, on_stale
+
+    plan, _ = small_plan()
+    data, _ = run_plan(Progress(), {"token": "d" * 32}, plan, LAKE, None, folder=tmp_path)
+    assert on_stale(data, plan, LAKE, "plans", None) is None
+    fewer = {"scenarios": plan["scenarios"][:1]}  # a scenario deleted after the run
+    assert "Results out of date" in str(on_stale(data, fewer, LAKE, "plans", None))
+    download, msg = on_export(data, None, fewer, LAKE, None)
+    assert download is no_update and "out of date" in msg

@@ -131,7 +131,7 @@ def test_meeting_view_and_independent_tabs(dash_page: tuple[Any, list[str]], bro
     title = dash.page.evaluate(
         "document.getElementById('equilibrium-graph').querySelector('.js-plotly-plot').layout.xaxis.title.text"
     )
-    assert "Phosphorus flowing in" in title
+    assert "Phosphorus inflow" in title  # the meeting register's one name for the load (app.vocabulary)
     dash.set_load(round(1.12 * TIP.load))
     dash.screenshot("dashboard-meeting-view.png")
     # a second tab is a second, independent lake

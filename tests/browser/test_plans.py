@@ -19,6 +19,7 @@ from turnback.app.report import CAUTIONS
 from turnback.app.stores import lake_to_store, new_history
 from turnback.app.views.plans import callbacks as plans_callbacks
 from turnback.app.views.plans.readout import plan_lake
+from turnback.app.views.plans.scenarios import with_baseline
 from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from turnback.model.ensemble import compare_plan
 from turnback.model.equilibrium import folds
@@ -142,20 +143,23 @@ def test_build_run_save_export_restart_and_keep_working(browser: Any, slow_runs:
         page = dash.page
         assert "permits" in page.inner_text(".plan-form .treatment-caution")
         add_scenario(dash, name=CUT.name, cv="0.3", members="200", seed="7")
-        add_scenario(dash, name=UP.name, load_kind="held constant", load_from=str(HIGH), cv="0.3", seed="8")
+        add_scenario(
+            dash, name=UP.name, load_kind="held constant", load_from=str(HIGH), cv="0.3", members="200", seed="8"
+        )
         assert list_names(dash) == [CUT.name, UP.name]
         assert page.input_value(f"#{ids.PLAN_FORM['name']}") == "Scenario 3"  # ready for the next one
         # run: the progress shows while it runs, then the table
         seen = run_and_watch(dash, pace=0.6)
         assert any(re.match(r"\d+% — ", t) for t in seen), seen
         assert page.inner_text(f"#{ids.PLAN_PROGRESS_TEXT}") == "done"
-        assert page.inner_text(f"#{ids.PLAN_RUN_MESSAGE}") == "Ran 2 scenarios."
-        assert column(dash, "scenario") == [CUT.name, UP.name]
+        assert page.inner_text(f"#{ids.PLAN_RUN_MESSAGE}") == "Ran 3 scenarios."  # with the do-nothing baseline
+        assert column(dash, "scenario")[:2] == [CUT.name, UP.name]
         # the numbers are the model's for the same scenarios from the same state
         lake = plan_lake(lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE), None)
         start = new_history(lake_to_store(DEMO_PARAMETERS, DEMO_PROFILE))["p"][0]
         assert lake.initial_p_kg == pytest.approx(start)
-        expected = compare_plan(Plan(lake, (CUT, UP))).results
+        # with the do-nothing baseline the view adds to every run (its own rule: views/plans/scenarios.py)
+        expected = compare_plan(Plan(lake, tuple(with_baseline([CUT, UP], TODAY)))).results
         assert column(dash, "p_flip") == [f"{100 * r.p_flip:.1f}%" for r in expected]
         assert column(dash, "final_tp_median_ug_l") == [f"{r.final_tp_median_ug_l:.1f}" for r in expected]
         assert expected[1].p_flip > 0.5 > expected[0].p_flip  # the two plans differ, so the order check can fail
@@ -274,8 +278,8 @@ def keep_working(dash: Dashboard) -> None:
     fill(dash, "years", "30")
     fill(dash, "cut_percent", "20")
     run_and_watch(dash)
-    assert page.inner_text(f"#{ids.PLAN_RUN_MESSAGE}") == "Ran 2 scenarios."
-    assert column(dash, "scenario") == ["Cut 25%", UP.name]
+    assert page.inner_text(f"#{ids.PLAN_RUN_MESSAGE}") == "Ran 3 scenarios."  # with the do-nothing baseline
+    assert column(dash, "scenario")[:2] == ["Cut 25%", UP.name]
     first = column(dash, "final_tp_median_ug_l")
     add_scenario(dash, name="Third", members="200")
     assert list_names(dash) == ["Cut 25%", UP.name, "Third"]
@@ -291,7 +295,7 @@ def keep_working(dash: Dashboard) -> None:
     )
     dash.wait_idle()
     assert page.inner_text(f"#{ids.PLAN_PROGRESS_TEXT}") == "cancelled"
-    assert column(dash, "scenario") == ["Cut 25%", UP.name] and column(dash, "final_tp_median_ug_l") == first
+    assert column(dash, "scenario")[:2] == ["Cut 25%", UP.name] and column(dash, "final_tp_median_ug_l") == first
     assert page.is_enabled(f"#{ids.PLAN_RUN}")
     # the precautionary load under the first scenario's variability, with its Monte-Carlo error
     page.click(f"#{ids.PLAN_PREC_BUTTON}")

@@ -39,7 +39,10 @@ def test_upload_fit_and_bad_file(dash_page: tuple[Any, list[str]], tmp_path: Pat
     assert "hysteretic" in dash.page.inner_text("#fit-regime")
     assert "90% interval" in dash.page.inner_text("#fit-tipping")
     dash.screenshot("record-fitted.png")
-    # the fitted lake is the current lake, with its observed years and fold bands on the main figure
+    # the fit is proposed; once used, the fitted lake is the current lake, with its observed years and fold bands
+    dash.page.wait_for_function("!document.getElementById('record-use-fit').disabled")
+    dash.page.click("#record-use-fit")
+    dash.wait_idle()
     open_tab(dash, "The lake now")
     dash.page.wait_for_function("document.getElementById('lake-title').innerText.includes('pond_record.csv')")
     dash.wait_idle()

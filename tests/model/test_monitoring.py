@@ -271,3 +271,12 @@ def test_csv_like_noise_after_a_good_header_gives_a_message(body: str) -> None:
         parse_monitoring(("year,load_kg,tp_ug_l,secchi_m\n" + body).encode())
     except MonitoringError as exc:
         assert str(exc) and "\n" not in str(exc)
+
+
+def test_the_year_rule_admits_the_longest_record() -> None:
+    # the row limit and the year rule agree: MAX_ROWS consecutive four-digit years are a valid record
+    from turnback.model.io.monitoring_csv import MAX_ROWS
+
+    rows = [f"{1000 + i},{300 + i % 7},{20 + i % 5}\n" for i in range(MAX_ROWS)]
+    s = parse_monitoring(("year,load_kg,tp_ug_l\n" + "".join(rows)).encode())
+    assert s.years.size == MAX_ROWS

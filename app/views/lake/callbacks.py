@@ -4,16 +4,29 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
+from functools import lru_cache
 from typing import Any
 
-from dash import Dash, Input, Output, State, ctx, no_update
-from turnback.model.equilibrium import analyze
+from dash import Dash, Input, Output, Patch, State, ctx, no_update
+from turnback.model.equilibrium import LakeAnalysis, analyze, folds
+from turnback.model.outlook import lake_outlook
+from turnback.model.params import LakeParameters, LakeProfile
 
 from ... import ids
 from ...stores import fit_of, history_of, lake_from_store, new_history, same_lake
 from ...theme import is_meeting
-from .figures import equilibrium_figure, history_patches, time_figure
-from .history import MAX_YEARS_PER_CHANGE, advance, remove_p, restart
+from .figures import append_patches, equilibrium_figure, history_patches, time_figure
+from .history import (
+    MAX_HISTORY,
+    MAX_SETTLE_YEARS,
+    MAX_YEARS_PER_CHANGE,
+    advance,
+    appended,
+    from_tail,
+    remove_p,
+    restart,
+    tail_of,
+)
 from .layout import slider_config
 from .readout import build_readout, fit_rows, removal_text
 from .settings import FIELD_RULES, check_settings
@@ -45,15 +58,27 @@ def field_values(lake: Lake) -> dict[str, str]:
 
 
 def on_lake(lake: Lake, meeting_value: list[str] | None, history: Any, fit_data: Any) -> dict[str, Any]:
-    """The lake (or the view) changed: rebuild the figures and the slider, show the lake in the settings."""
+    """The lake (or the view) changed: rebuild the figures and the slider, show the lake in the settings.
+
+    A history of another lake is not shown: the history starts again, and the note under the slider says so.
+    """
     params, profile = lake_from_store(lake)
     fit = fit_of(lake, fit_data)
     shown = history_of(lake, history) or new_history(lake)
-    analysis = analyze(params, n_points=600)
-    slider = slider_config(analysis, profile)
+    analysis = analysis_of(params, 600)
     meeting = is_meeting(meeting_value)
+    slider = slider_config(analysis, profile, meeting)
+    note: Any = no_update
+    if shown is not history:
+        note = (
+            "The history started again: the lake changed (its settings, or a fitted lake was put in use)."
+            if history
+            else ""
+        )
     return {
         "history": no_update if shown is history else shown,
+        "tail": tail_of(shown),
+        "note": note,
         "equilibrium": equilibrium_figure(
             analysis,
             profile,
@@ -88,15 +113,51 @@ def _removal_kg(value: Any) -> float | None:
     return kg if math.isfinite(kg) and kg >= 0 else None
 
 
+def big_step(which: str, load_now: float, params: LakeParameters, profile: LakeProfile, top: float) -> float | None:
+    """The load of a big step: ±10 % of today's load, just past the tipping load, just under the recovery load."""
+    today = profile.load_kg_per_yr
+    fs = folds(params)
+    if which == "down":
+        return max(0.0, load_now - 0.1 * today)
+    if which == "up":
+        return min(top, load_now + 0.1 * today)
+    if which == "past_tipping":
+        return min(top, 1.02 * fs[0].load) if fs else None
+    if which == "under_recovery":
+        return 0.98 * fs[1].load if fs and fs[1].load > 0 else None
+    return None
+
+
+STEP_KEYS = {v: k for k, v in ids.STEP_BUTTONS.items()}
+
+
+@lru_cache(maxsize=32)
+def analysis_of(params: LakeParameters, n_points: int) -> LakeAnalysis:
+    """The engine's analysis of a lake, worked out once per lake (a view toggle redraws without redoing it)."""
+    return analyze(params, n_points=n_points)
+
+
 def step_session(
     trigger: str | None, load: Any, history: Any, lake: Lake, years_value: Any, removal_value: Any
 ) -> tuple[dict[str, Any] | None, str, str]:
-    """Apply one user action to the history; returns (new history or None, years message, removal message)."""
+    """Apply one user action to the history; returns (new history or None, years message, removal message).
+
+    ``history`` may be the whole history or a one-point history made from its
+    tail (:func:`history.from_tail`); the result extends what it was given.
+    """
     params, _ = lake_from_store(lake)
     if history_of(lake, history) is None:
         return None, "", ""
     if trigger == ids.RESET_BUTTON:
         return restart(history), "", ""
+    if trigger == ids.SETTLE_BUTTON:
+        out = lake_outlook(params, history["load"][-1], history["p"][-1], max_years=MAX_SETTLE_YEARS)
+        if out.years == 0:
+            return None, "The lake has already settled at this inflow.", ""
+        run = out.years or MAX_SETTLE_YEARS
+        new = advance(history, params, history["load"][-1], run, event="settle", limit=MAX_SETTLE_YEARS)
+        msg = "" if out.years else f"Not settled after {MAX_SETTLE_YEARS:,} years: it is creeping near a tipping point."
+        return new, msg, ""
     years, years_msg = _years(years_value)
     if years is None:
         return None, years_msg, ""
@@ -104,41 +165,79 @@ def step_session(
         kg = _removal_kg(removal_value)
         if kg is None:
             return None, "", "Enter the P mass to remove in kg (a number of 0 or more)."
+        held = history["p"][-1]
         new_h = remove_p(history, params, kg, years)
-        return new_h, "", f"Removed {min(kg, history['p'][-1]):,.0f} kg P, then {years} years passed."
+        if kg > held:
+            return (
+                new_h,
+                "",
+                f"Removed {held:,.0f} kg P, all the lake held (you asked for {kg:,.0f} kg: the removal is capped at "
+                f"what is in the lake), then {years} years passed.",
+            )
+        return new_h, "", f"Removed {kg:,.0f} kg P, then {years} years passed."
     if load is None or (trigger == ids.LOAD_SLIDER and float(load) == history["load"][-1]):
         return None, "", ""
     return advance(history, params, float(load), years), "", ""
 
 
 def on_action(
-    load: Any, history: Any, lake: Lake, years_value: Any, removal_value: Any, **_clicks: int
+    load: Any, tail: Any, lake: Lake, years_value: Any, removal_value: Any, top: Any, **_clicks: int
 ) -> dict[str, Any]:
-    """Load moved, years passed, removal or restart: advance the lake and patch the figures."""
-    new, years_msg, removal_msg = step_session(ctx.triggered_id, load, history, lake, years_value, removal_value)
-    out: dict[str, Any] = {"history": no_update, "equilibrium": no_update}
-    if new is not None:
-        out.update(history=new, equilibrium=history_patches(new, lake)[0])
+    """Load moved, big step, years passed, removal or restart: advance the lake and patch the figures.
+
+    Only the last state travels to the server (``HISTORY_TAIL``); the new
+    points are appended to the history store and to both figures with
+    patches, so the time a change takes does not grow with the history.
+    """
+    trigger = ctx.triggered_id
+    out: dict[str, Any] = {
+        "history": no_update,
+        "tail": no_update,
+        "equilibrium": no_update,
+        "time": no_update,
+        "slider": no_update,
+    }
+    short = from_tail(tail) if tail else None
+    if trigger in STEP_KEYS and short is not None:
+        params, profile = lake_from_store(lake)
+        new_load = big_step(STEP_KEYS[trigger], short["load"][-1], params, profile, float(top or 1e12))
+        if new_load is None:
+            return out | {"years_message": "This lake has no such point.", "removal_message": ""}
+        out["slider"] = new_load
+        trigger, load = ids.LOAD_SLIDER, new_load
+    new, years_msg, removal_msg = step_session(trigger, load, short, lake, years_value, removal_value)
+    if new is not None and short is not None:
+        if trigger == ids.RESET_BUTTON or tail["n"] + len(new["year"]) - 1 > MAX_HISTORY:
+            if trigger != ids.RESET_BUTTON:
+                new = restart(new) if len(new["year"]) > MAX_HISTORY else new
+                years_msg = f"The history reached {MAX_HISTORY:,} points and started again from the lake now."
+            eq, tf = history_patches(new, lake)
+            out.update(history=new, tail=tail_of(new), equilibrium=eq, time=tf)
+        else:
+            added = appended(new)
+            store = Patch()
+            for k in ("year", "load", "p", "event"):
+                store[k].extend(added[k])
+            first = int(tail.get("first", tail["year"]))
+            eq, tf = append_patches(added, lake, (first, int(new["year"][-1])))
+            new_tail = tail_of(new) | {"n": tail["n"] + len(added["year"]), "first": first}
+            out.update(history=store, tail=new_tail, equilibrium=eq, time=tf)
     return out | {"years_message": years_msg, "removal_message": removal_msg}
 
 
-def on_history(history: Any, meeting_value: list[str] | None, lake: Lake, fit_data: Any) -> dict[str, Any]:
-    """Readout, removal need and time panel for the current state."""
-    if history_of(lake, history) is None:
-        return {"readout": no_update, "needed": no_update, "suggestion": no_update, "time": no_update}
+def on_history(tail: Any, meeting_value: list[str] | None, lake: Lake, fit_data: Any) -> dict[str, Any]:
+    """Readout and removal need for the current state (the tail of the history)."""
+    if not tail or history_of(lake, {"lake_key": tail.get("lake_key")}) is None:
+        return {"readout": no_update, "needed": no_update, "suggestion": no_update}
     params, profile = lake_from_store(lake)
-    load, p_now = history["load"][-1], history["p"][-1]
-    rows = build_readout(params, profile, analyze(params, n_points=10), load, p_now, meeting=is_meeting(meeting_value))
+    load, p_now = tail["load"], tail["p"]
+    meeting = is_meeting(meeting_value)
+    rows = build_readout(params, profile, analysis_of(params, 10), load, p_now, meeting=meeting)
     fit = fit_of(lake, fit_data)
     if fit:
-        rows += fit_rows(dict(fit))
+        rows += fit_rows(dict(fit), meeting)
     text, kg = removal_text(params, profile, load, p_now)
-    return {
-        "readout": rows,
-        "needed": text,
-        "suggestion": math.ceil(kg) if kg > 0 else 0,
-        "time": history_patches(history, lake)[1],
-    }
+    return {"readout": rows, "needed": text, "suggestion": math.ceil(kg) if kg > 0 else 0}
 
 
 def on_meeting(value: list[str] | None) -> dict[str, str]:
@@ -160,6 +259,8 @@ def register(app: Dash) -> None:
     app.callback(
         output={
             "history": Output(ids.HISTORY_STORE, "data"),
+            "tail": Output(ids.HISTORY_TAIL, "data"),
+            "note": Output(ids.HISTORY_NOTE, "children"),
             "equilibrium": Output(ids.EQUILIBRIUM_GRAPH, "figure"),
             "time": Output(ids.TIME_GRAPH, "figure"),
             "slider": {k: Output(ids.LOAD_SLIDER, k) for k in ("max", "step", "marks", "value")},
@@ -172,21 +273,27 @@ def register(app: Dash) -> None:
     app.callback(
         output={
             "history": Output(ids.HISTORY_STORE, "data", allow_duplicate=True),
+            "tail": Output(ids.HISTORY_TAIL, "data", allow_duplicate=True),
             "equilibrium": Output(ids.EQUILIBRIUM_GRAPH, "figure", allow_duplicate=True),
+            "time": Output(ids.TIME_GRAPH, "figure", allow_duplicate=True),
+            "slider": Output(ids.LOAD_SLIDER, "value", allow_duplicate=True),
             "years_message": Output(ids.YEARS_MESSAGE, "children"),
             "removal_message": Output(ids.REMOVAL_MESSAGE, "children"),
         },
         inputs={
             "load": Input(ids.LOAD_SLIDER, "value"),
             "wait": Input(ids.WAIT_BUTTON, "n_clicks"),
+            "settle": Input(ids.SETTLE_BUTTON, "n_clicks"),
             "reset": Input(ids.RESET_BUTTON, "n_clicks"),
             "remove": Input(ids.REMOVAL_BUTTON, "n_clicks"),
+            **{k: Input(b, "n_clicks") for k, b in ids.STEP_BUTTONS.items()},
         },
         state={
-            "history": State(ids.HISTORY_STORE, "data"),
+            "tail": State(ids.HISTORY_TAIL, "data"),
             "lake": State(ids.LAKE_STORE, "data"),
             "years_value": State(ids.YEARS_INPUT, "value"),
             "removal_value": State(ids.REMOVAL_INPUT, "value"),
+            "top": State(ids.LOAD_SLIDER, "max"),
         },
         prevent_initial_call=True,
     )(on_action)
@@ -195,10 +302,8 @@ def register(app: Dash) -> None:
             "readout": Output(ids.READOUT, "children"),
             "needed": Output(ids.REMOVAL_NEEDED, "children"),
             "suggestion": Output(ids.REMOVAL_INPUT, "value"),
-            "time": Output(ids.TIME_GRAPH, "figure", allow_duplicate=True),
         },
-        inputs={"history": Input(ids.HISTORY_STORE, "data"), "meeting_value": Input(ids.MEETING_TOGGLE, "value")},
+        inputs={"tail": Input(ids.HISTORY_TAIL, "data"), "meeting_value": Input(ids.MEETING_TOGGLE, "value")},
         state={"lake": State(ids.LAKE_STORE, "data"), "fit_data": State(ids.FIT_STORE, "data")},
-        prevent_initial_call="initial_duplicate",
     )(on_history)
     app.callback(Output(ids.SETTINGS_PANEL, "style"), Input(ids.MEETING_TOGGLE, "value"))(on_meeting)

@@ -21,6 +21,8 @@ from turnback.model.trophic_coefficients import OECD_1982
 
 from ...stores import lake_from_store
 from ...theme import (
+    BAND_RECOVERY,
+    BAND_TIPPING,
     BISTABLE,
     CLEAR,
     CURRENT,
@@ -30,12 +32,11 @@ from ...theme import (
     SEPARATRIX,
     TODAY,
     TURBID,
-    height,
-    load_axis_title,
     sizes,
 )
+from ...vocabulary import TROPHIC_SHORT, term
 
-#: fixed trace order of the equilibrium figure
+#: fixed trace order of the equilibrium figure (legend-only entries of the fit's bands follow these)
 EQ_TRACES = ("lower", "middle", "upper", "folds", "observed", "history", "current")
 EQ_HISTORY = EQ_TRACES.index("history")
 EQ_CURRENT = EQ_TRACES.index("current")
@@ -48,38 +49,17 @@ TIME_LOAD = 1
 
 
 def _labels(meeting: bool) -> dict[str, str]:
-    if meeting:
-        return {
-            "x": load_axis_title(True),
-            "y": "Phosphorus in the lake water (µg per litre)",
-            "lower": "Clear water",
-            "middle": "Tipping threshold",
-            "upper": "Turbid, green water",
-            "single": "The lake's only stable state",
-            "band": "two possible states",
-            "history": "Path so far",
-            "current": "The lake now",
-            "folds": "Tipping and recovery points",
-            "today": "today",
-            "year": "Year",
-            "tp": "TP (µg/L)",
-            "load": "Inflow (kg/yr)",
-        }
-    return {
-        "x": load_axis_title(False),
-        "y": "Lake total phosphorus TP [µg L⁻¹]",
-        "lower": "Clear-water branch (stable)",
-        "middle": "Separatrix (unstable)",
-        "upper": "Turbid branch (stable)",
-        "single": "Equilibrium (stable)",
-        "band": "bistable: two stable states",
-        "history": "History this session",
-        "current": "Current state",
-        "folds": "Folds",
-        "today": "present-day load",
-        "year": "Year",
-        "tp": "TP [µg L⁻¹]",
-        "load": "Load [kg yr⁻¹]",
+    keys = ("lower", "upper", "single", "band", "history", "current", "today", "year", "observed")
+    lab = {k: term(k, meeting) for k in keys}
+    return lab | {
+        "x": term("inflow_axis", meeting),
+        "y": term("tp_axis", meeting),
+        "middle": term("separatrix", meeting),
+        "folds": f"{term('Tipping', meeting)} and {term('recovery', meeting)}",
+        "tipping": term("tipping", meeting),
+        "recovery": term("recovery", meeting),
+        "tp": term("tp_short", meeting),
+        "load": term("inflow_short", meeting),
     }
 
 
@@ -141,14 +121,16 @@ def equilibrium_figure(
         )
     fx = [f.load for f in analysis.folds]
     fy = [float(profile.concentration(f.p)) for f in analysis.folds]
-    ftext = [("tipping load " if f.kind == "tipping" else "recovery load ") + f"{f.load:,.0f}" for f in analysis.folds]
+    ftext = [f"{lab['tipping'] if f.kind == 'tipping' else lab['recovery']} {f.load:,.0f}" for f in analysis.folds]
     fig.add_trace(
         go.Scatter(
             x=fx,
             y=fy,
             mode="markers+text",
             text=ftext,
-            textposition=["top left", "bottom right"][: len(fx)],
+            # away from the dashed line, which leaves the tipping fold up-left and reaches the recovery fold
+            # from the lower right
+            textposition=["bottom right", "top left"][: len(fx)],
             textfont={"size": sty["font"] - 2, "color": FOLD},
             marker={"symbol": "diamond", "size": sty["marker"], "color": FOLD, "line": {"color": "white", "width": 1}},
             name=lab["folds"],
@@ -163,21 +145,21 @@ def equilibrium_figure(
             y=obs["tp"],
             customdata=obs["year"],
             mode="markers",
-            name="observed years",
+            name=lab["observed"],
             marker={"size": sty["marker"] // 2 + 2, "color": OBSERVED, "symbol": "square"},
             hovertemplate="%{customdata}: %{x:.0f} kg/yr, %{y:.1f} µg/L<extra>observed</extra>",
             showlegend=bool(obs["load"]),
         )
     )
     if fit:
-        _fold_bands(fig, fit, load_max, sty["font"] - 4)
+        _fold_bands(fig, fit, load_max, meeting)
     hxy = history_xy(history, profile)
     fig.add_trace(
         go.Scatter(
             x=hxy["load"],
             y=hxy["tp"],
             customdata=hxy["year"],
-            mode="lines+markers",
+            mode="lines",  # one path however long the history: the redraw does not grow with markers
             name=lab["history"],
             line={"color": HISTORY, "width": max(1.5, sty["line"] - 1.5)},
             marker={"size": sty["marker"] // 2.5, "color": HISTORY},
@@ -191,11 +173,12 @@ def equilibrium_figure(
             y=hxy["tp"][-1:],
             mode="markers",
             name=lab["current"],
+            # an open ring, so a fold diamond under it stays visible
             marker={
-                "size": sty["marker"] * 1.6,
+                "size": sty["marker"] * 1.7,
                 "color": CURRENT,
-                "symbol": "circle",
-                "line": {"color": "white", "width": 3},
+                "symbol": "circle-open",
+                "line": {"color": CURRENT, "width": 4},
             },
             hovertemplate="now: %{x:.0f} kg/yr, %{y:.1f} µg/L<extra></extra>",
         )
@@ -203,59 +186,92 @@ def equilibrium_figure(
     if len(analysis.folds) == 2:
         lo = max(0.0, analysis.folds[1].load)
         hi = analysis.folds[0].load
-        fig.add_vrect(
-            x0=lo,
-            x1=hi,
-            fillcolor=BISTABLE,
-            line_width=0,
-            layer="below",
-            annotation_text=lab["band"],
-            annotation_position="top left",
-            annotation_font_size=sty["font"] - 3,
-        )
-    fig.add_vline(
-        x=present_load,
-        line={"color": TODAY, "width": 2, "dash": "dot"},
-        annotation_text=lab["today"],
-        annotation_position="bottom right",
-        annotation_font={"size": sty["font"] - 3, "color": TODAY},
-    )
+        fig.add_vrect(x0=lo, x1=hi, fillcolor=BISTABLE, line_width=0, layer="below")
+    fig.add_vline(x=present_load, line={"color": TODAY, "width": 2, "dash": "dot"})
     y_top = float(profile.concentration(np.max(analysis.curve.p))) if len(analysis.curve) else 1.0
     y_top = max(y_top, max(hxy["tp"]) if hxy["tp"] else 0.0) * 1.05
     _trophic_bands(fig, y_top, sty["font"] - 4, meeting)
+    # the shaded band and today's line are named in the legend (outside the plot), not on it
+    if len(analysis.folds) == 2:
+        _legend_only(fig, lab["band"], {"symbol": "square", "size": 14, "color": "rgba(232, 180, 60, 0.45)"})
+    # today's line is named in the top margin, just above the plot
+    fig.add_annotation(
+        x=present_load,
+        xref="x",
+        y=1.0,
+        yref="paper",
+        yanchor="bottom",
+        showarrow=False,
+        text=lab["today"],
+        font={"size": sty["font"] - 4, "color": TODAY},
+    )
+    if fit:
+        _band_legend(fig, fit, meeting)
     fig.update_layout(
         template="plotly_white",
         font={"size": sty["font"]},
-        margin={"l": 70, "r": 20, "t": 30, "b": 60},
-        height=height("equilibrium", meeting),
+        margin={"l": 70, "r": 150 if meeting else 130, "t": 80 if meeting else 66, "b": 50},
+        autosize=True,
         xaxis={"title": lab["x"], "range": [min(0.0, float(np.min(analysis.curve.load))), load_max], "zeroline": True},
         yaxis={"title": lab["y"], "range": [0.0, y_top], "rangemode": "tozero"},
-        legend={"orientation": "h", "yanchor": "bottom", "y": 1.01, "x": 0.0},
+        # above the plot area, outside it (plotly pushes the top margin to make room)
+        legend={
+            "orientation": "h",
+            "yref": "container",
+            "yanchor": "top",
+            "y": 1.0,
+            "x": 0.0,
+            "font": {"size": sty["font"] - 5},
+        },
         uirevision="equilibrium",
     )
     return fig
 
 
-def _fold_bands(fig: go.Figure, fit: Mapping[str, Any], load_max: float, font: int) -> None:
-    """The fitted folds' bootstrap intervals as vertical bands."""
-    for key, label, colour in (
-        ("tipping", "tipping load", "rgba(31,111,168,0.13)"),
-        ("recovery", "recovery load", "rgba(122,143,28,0.15)"),
-    ):
+_BANDS = (("tipping", "Tipping", BAND_TIPPING), ("recovery", "Recovery", BAND_RECOVERY))
+
+
+def _fold_bands(fig: go.Figure, fit: Mapping[str, Any], load_max: float, meeting: bool) -> None:
+    """The fitted folds' bootstrap intervals as vertical bands (named in the legend, not on the plot)."""
+    for key, _, colour in _BANDS:
         band = fit.get(key) or {}
         lo, hi = band.get("low"), band.get("high")
         if lo is None or hi is None:
             continue
-        text = f"{label}: 90% band" if band.get("constrained", True) else f"{label}: not constrained by the record"
-        fig.add_vrect(
-            x0=max(lo, -load_max),
-            x1=min(hi, load_max),
-            fillcolor=colour,
-            line_width=0,
-            layer="below",
-            annotation_text=text,
-            annotation_position="bottom left" if key == "tipping" else "bottom right",
-            annotation_font={"size": font, "color": "#333"},
+        fig.add_vrect(x0=max(lo, -load_max), x1=min(hi, load_max), fillcolor=colour, line_width=0, layer="below")
+
+
+def _legend_only(fig: go.Figure, name: str, marker: dict[str, Any] | None, line: dict[str, Any] | None = None) -> None:
+    fig.add_trace(
+        go.Scatter(
+            x=[None],
+            y=[None],
+            mode="markers" if marker else "lines",
+            marker=marker,
+            line=line,
+            name=name,
+            hoverinfo="skip",
+        )
+    )
+
+
+def _band_legend(fig: go.Figure, fit: Mapping[str, Any], meeting: bool) -> None:
+    """Legend entries for the fold bands (after the fixed traces, so patches keep their indices)."""
+    for key, name, colour in _BANDS:
+        band = fit.get(key) or {}
+        if band.get("low") is None or band.get("high") is None:
+            continue
+        known = band.get("constrained", True)
+        what = ("likely range" if meeting else "90% band") if known else "not known from this record"
+        fig.add_trace(
+            go.Scatter(
+                x=[None],
+                y=[None],
+                mode="markers",
+                marker={"symbol": "square", "size": 14, "color": colour.replace("0.13", "0.5").replace("0.15", "0.5")},
+                name=f"{term(name, meeting)}: {what}",
+                hoverinfo="skip",
+            )
         )
 
 
@@ -264,29 +280,31 @@ OECD_TP_EDGES = OECD_1982.tp_ug_l
 
 
 def _trophic_bands(fig: go.Figure, y_top: float, font: int, meeting: bool) -> None:
-    """Label the TP axis with OECD (1982) trophic classes and Carlson (1977) expected Secchi depths."""
+    """Label the TP axis, in the right margin, with OECD (1982) classes and Carlson (1977) expected Secchi depths."""
     edges = [0.0, *OECD_TP_EDGES, np.inf]
     for i, name in enumerate(OECD_CLASSES):
         lo, hi = edges[i], min(edges[i + 1], y_top)
-        if lo >= y_top or hi - lo < 0.04 * y_top:
+        if lo >= y_top or hi - lo < 0.06 * y_top:
             continue
         if lo > 0:
             fig.add_hline(y=lo, line={"color": "rgba(90,90,90,0.35)", "width": 1, "dash": "dot"}, layer="below")
         sd_hi = float(expected_secchi(max(lo, 0.5)))
         sd_lo = float(expected_secchi(hi))
-        secchi = f"see {sd_lo:.1f}–{sd_hi:.1f} m down" if meeting else f"Secchi ≈ {sd_lo:.1f}–{sd_hi:.1f} m"
-        if lo == 0:
-            secchi = f"see over {sd_lo:.1f} m down" if meeting else f"Secchi > {sd_lo:.1f} m"
+        depth = "see" if meeting else "Secchi"
+        secchi = f"{depth} {sd_lo:.1f}–{sd_hi:.1f} m" if lo > 0 else f"{depth} > {sd_lo:.1f} m"
+        label = TROPHIC_SHORT[name] if meeting else name
+        if hi - lo >= 0.25 * y_top:  # room for a second line
+            label = f"{label}<br>{secchi}"
         fig.add_annotation(
-            x=1.0,
+            x=1.01,
             xref="paper",
-            xanchor="right",
+            xanchor="left",
             y=(lo + hi) / 2,
             yref="y",
             showarrow=False,
-            text=f"{name} · {secchi}",
-            font={"size": font, "color": "#555"},
-            bgcolor="rgba(255,255,255,0.6)",
+            align="left",
+            text=label,
+            font={"size": font, "color": "#444"},
         )
 
 
@@ -300,16 +318,16 @@ def time_figure(
     """Lake TP and load against year, for the same history (and the observed record of a fitted lake)."""
     lab = _labels(meeting)
     sty = _style(meeting)
-    fig = make_subplots(rows=2, cols=1, shared_xaxes=True, row_heights=[0.62, 0.38], vertical_spacing=0.06)
+    fig = make_subplots(rows=2, cols=1, shared_xaxes=True, row_heights=[0.6, 0.4], vertical_spacing=0.16)
     hxy = history_xy(history, profile)
     fig.add_trace(
         go.Scatter(
             x=hxy["year"],
             y=hxy["tp"],
-            mode="lines+markers",
+            mode="lines+markers",  # markers so a one-year history shows; at most 60 drawn, however long it is
             name=lab["tp"],
             line={"color": HISTORY, "width": sty["line"] - 1},
-            marker={"size": sty["marker"] // 3},
+            marker={"size": sty["marker"] // 3, "maxdisplayed": 60},
             hovertemplate="year %{x}: %{y:.1f} µg/L<extra></extra>",
         ),
         row=1,
@@ -335,15 +353,31 @@ def time_figure(
     )
     fig.update_layout(
         template="plotly_white",
-        font={"size": sty["font"] - 1},
-        margin={"l": 90 if meeting else 70, "r": 20, "t": 20, "b": 50},
-        height=height("time", meeting),
+        font={"size": sty["font"] - 2},
+        margin={"l": 60, "r": 20, "t": 24, "b": 45},
+        autosize=True,
         showlegend=False,
         uirevision="time",
     )
-    fig.update_yaxes(title_text=lab["tp"], row=1, col=1, rangemode="tozero")
-    fig.update_yaxes(title_text=lab["load"], row=2, col=1, rangemode="tozero")
+    # each panel is named in its top-left corner (two stacked axis titles collide on a short panel)
+    fig.update_yaxes(rangemode="tozero", nticks=3)
+    for row, text in ((1, lab["tp"]), (2, lab["load"])):
+        fig.add_annotation(
+            x=0.0,
+            xref="paper",
+            xanchor="left",
+            y=1.0,
+            yref=f"y{'' if row == 1 else row} domain",
+            yanchor="bottom",
+            text=text,
+            showarrow=False,
+            font={"size": sty["font"] - 4, "color": "#444"},
+        )
     fig.update_xaxes(title_text=lab["year"], row=2, col=1)
+    years = list(hxy["year"]) + list(obs["year"])
+    first, last = min(years), max(years)
+    if last - first < 20:  # a short history: a readable stretch of years, not one point on an axis from -1 to 1
+        fig.update_xaxes(range=[first - 0.5, first + 20.5], autorange=False)
     return fig
 
 
@@ -367,4 +401,32 @@ def history_patches(history: Mapping[str, Any], lake: Mapping[str, Any]) -> tupl
     tf["data"][TIME_TP]["y"] = hxy["tp"]
     tf["data"][TIME_LOAD]["x"] = hxy["year"]
     tf["data"][TIME_LOAD]["y"] = hxy["load"]
+    if len(hxy["year"]) > 1 and hxy["year"][-1] - hxy["year"][0] >= 20:
+        tf["layout"]["xaxis"]["autorange"] = True
+        tf["layout"]["xaxis2"]["autorange"] = True
+    return eq, tf
+
+
+def append_patches(added: Mapping[str, Any], lake: Mapping[str, Any], span: tuple[int, int]) -> tuple[Patch, Patch]:
+    """Patches that append the new points to the history layers of both figures (size independent of the history).
+
+    ``span`` is (first year of the history, last year after the step): the
+    time axis is let loose once the history covers 20 years.
+    """
+    _, profile = lake_from_store(lake)
+    hxy = history_xy({"p": added["p"], "load": added["load"], "year": added["year"]}, profile)
+    eq = Patch()
+    eq["data"][EQ_HISTORY]["x"].extend(hxy["load"])
+    eq["data"][EQ_HISTORY]["y"].extend(hxy["tp"])
+    eq["data"][EQ_HISTORY]["customdata"].extend(hxy["year"])
+    eq["data"][EQ_CURRENT]["x"] = hxy["load"][-1:]
+    eq["data"][EQ_CURRENT]["y"] = hxy["tp"][-1:]
+    tf = Patch()
+    tf["data"][TIME_TP]["x"].extend(hxy["year"])
+    tf["data"][TIME_TP]["y"].extend(hxy["tp"])
+    tf["data"][TIME_LOAD]["x"].extend(hxy["year"])
+    tf["data"][TIME_LOAD]["y"].extend(hxy["load"])
+    if span[1] - span[0] >= 20:
+        tf["layout"]["xaxis"]["autorange"] = True
+        tf["layout"]["xaxis2"]["autorange"] = True
     return eq, tf

@@ -15,6 +15,7 @@ from turnback.model.params import LakeParameters
 
 MAX_HISTORY = 4000  # points kept per session; the oldest are dropped beyond this
 MAX_YEARS_PER_CHANGE = 200
+MAX_SETTLE_YEARS = 1000  # "run until settled" runs at most this many years at once
 
 History = dict[str, Any]
 
@@ -32,12 +33,17 @@ def _copy(history: Mapping[str, Any]) -> History:
 
 
 def advance(
-    history: Mapping[str, Any], params: LakeParameters, load: float, years: int, event: str = "load"
+    history: Mapping[str, Any],
+    params: LakeParameters,
+    load: float,
+    years: int,
+    event: str = "load",
+    limit: int = MAX_YEARS_PER_CHANGE,
 ) -> History:
     """Run the annual map ``years`` years at ``load`` from the last state and append."""
     years = int(years)
-    if not 1 <= years <= MAX_YEARS_PER_CHANGE:
-        raise ValueError(f"years per change must be between 1 and {MAX_YEARS_PER_CHANGE}")
+    if not 1 <= years <= limit:
+        raise ValueError(f"years per change must be between 1 and {limit}")
     traj = simulate(params, history["p"][-1], np.full(years, float(load)))
     y0 = history["year"][-1]
     h = _copy(history)
@@ -73,3 +79,34 @@ def restart(history: Mapping[str, Any]) -> History:
         new[k] = [history[k][-1]]
     new["event"] = ["start"]
     return new
+
+
+# --------------------------------------------------------------------------
+# the tail: what a load change needs, so the whole history never travels
+# --------------------------------------------------------------------------
+def tail_of(history: Mapping[str, Any]) -> dict[str, Any]:
+    """The last state of a history and its length (the ``HISTORY_TAIL`` store)."""
+    return {
+        "lake_key": history["lake_key"],
+        "year": history["year"][-1],
+        "load": history["load"][-1],
+        "p": history["p"][-1],
+        "n": len(history["year"]),
+        "first": history["year"][0],
+    }
+
+
+def from_tail(tail: Mapping[str, Any]) -> History:
+    """A one-point history at the tail's state (the appended points follow it)."""
+    return {
+        "lake_key": tail["lake_key"],
+        "year": [tail["year"]],
+        "load": [tail["load"]],
+        "p": [tail["p"]],
+        "event": [""],
+    }
+
+
+def appended(short: Mapping[str, Any]) -> History:
+    """The points a step added to a one-point history made by :func:`from_tail`."""
+    return {k: list(short[k][1:]) for k in ("year", "load", "p", "event")}

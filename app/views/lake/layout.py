@@ -10,7 +10,8 @@ from turnback.model.equilibrium import LakeAnalysis
 from turnback.model.params import LakeParameters, LakeProfile
 
 from ... import ids
-from ...theme import TODAY, graph_config
+from ...theme import TODAY, both, graph
+from ...vocabulary import term
 from .settings import FIELD_RULES
 
 TREATMENT_CAUTION = (
@@ -20,14 +21,25 @@ TREATMENT_CAUTION = (
 )
 
 
-def slider_config(analysis: LakeAnalysis, profile: LakeProfile) -> dict[str, Any]:
-    """Slider max, step and marks: 0 to about twice the tipping load, with today's load marked."""
+def _aria(**attrs: str) -> Any:
+    """``aria-*`` attributes for a Dash html component."""
+    return {f"aria-{k}": v for k, v in attrs.items()}
+
+
+def slider_config(analysis: LakeAnalysis, profile: LakeProfile, meeting: bool = False) -> dict[str, Any]:
+    """Slider max, step and marks: 0 to about twice the tipping load, with today's load and the thresholds marked.
+
+    One arrow-key press moves about 1 % of the range (a round step), so the
+    tipping load is a few dozen presses away, not hundreds.
+    """
     if analysis.tipping_load is not None:
         top = 2.0 * analysis.tipping_load
     else:
         top = 2.0 * max(profile.load_kg_per_yr, float(analysis.curve.load.max()) / 2.0)
     top = max(top, 1.2 * profile.load_kg_per_yr, 1e-6)
-    step = 10.0 ** math.floor(math.log10(top / 500.0))
+    raw = top / 100.0
+    base = 10.0 ** math.floor(math.log10(raw))
+    step = next(b * base for b in (1, 2, 5, 10) if b * base >= raw)
     top = math.ceil(top / step) * step
     marks: dict[float, Any] = {0: "0", top: f"{top:,.0f}"}
     marks[profile.load_kg_per_yr] = {
@@ -35,9 +47,9 @@ def slider_config(analysis: LakeAnalysis, profile: LakeProfile) -> dict[str, Any
         "style": {"color": TODAY, "fontWeight": "600"},
     }
     if analysis.tipping_load is not None:
-        marks[analysis.tipping_load] = {"label": "tipping", "style": {"color": "#2d2d2d"}}
+        marks[analysis.tipping_load] = {"label": term("tipping", meeting), "style": {"color": "#2d2d2d"}}
     if analysis.recovery_load is not None and analysis.recovery_load > 0:
-        marks[analysis.recovery_load] = {"label": "recovery", "style": {"color": "#2d2d2d"}}
+        marks[analysis.recovery_load] = {"label": term("recovery", meeting), "style": {"color": "#2d2d2d"}}
     return {"max": top, "step": step, "marks": marks}
 
 
@@ -88,7 +100,8 @@ def settings_panel(params: LakeParameters, profile: LakeProfile) -> html.Details
 
 def _readout_card() -> html.Div:
     return html.Div(
-        [html.H2("What the lake is doing"), html.Div(id=ids.READOUT, className="readout")], className="card"
+        [html.H2("What the lake is doing"), html.Div(id=ids.READOUT, className="readout", **_aria(live="polite"))],
+        className="card readout-card",
     )
 
 
@@ -108,15 +121,42 @@ def _removal_card() -> html.Div:
             html.Div(id=ids.REMOVAL_MESSAGE, className="field-message", role="alert"),
             html.P(TREATMENT_CAUTION, className="treatment-caution"),
         ],
-        className="card",
+        className="card removal-card",
     )
 
 
+#: big-step buttons: key -> label
+STEP_LABELS: dict[str, Any] = {
+    "down": "−10%",
+    "up": "+10%",
+    "past_tipping": both("Just past the tipping load", "Just past tipping point"),
+    "under_recovery": both("Just under the recovery load", "Just under way-back point"),
+}
+STEP_TITLES = {
+    "down": "Lower the inflow by a tenth of today's",
+    "up": "Raise the inflow by a tenth of today's",
+    "past_tipping": "Set the inflow 2% above the tipping point",
+    "under_recovery": "Set the inflow 2% below the way-back point",
+}
+
+
 def _load_card(profile: LakeProfile) -> html.Div:
+    steps = [
+        html.Button(
+            STEP_LABELS[k], id=ids.STEP_BUTTONS[k], n_clicks=0, className="secondary step", title=STEP_TITLES[k]
+        )
+        for k in ids.STEP_BUTTONS
+    ]
     return html.Div(
         [
-            html.H2("Phosphorus load"),
-            html.P("Drag, use the arrow keys, or type a value (kg P per year).", className="hint"),
+            html.Div(
+                [
+                    html.H2(both("External P load", "Phosphorus inflow"), id="load-heading"),
+                    html.Div(steps, className="step-row", role="group", **_aria(label="Big steps of the inflow")),
+                ],
+                className="card-head",
+            ),
+            html.P("kg P per year: drag, use the arrow keys, or type a value and press Tab.", className="hint"),
             dcc.Slider(
                 id=ids.LOAD_SLIDER,
                 min=0,
@@ -134,18 +174,22 @@ def _load_card(profile: LakeProfile) -> html.Div:
                         min=1,
                         max=200,
                         step=1,
-                        value=5,
+                        value=10,
                         debounce=True,
+                        persistence=True,
+                        persistence_type="session",
                         className="years-input",
                     ),
                     html.Button("Let the years pass", id=ids.WAIT_BUTTON, n_clicks=0),
+                    html.Button("Run until settled", id=ids.SETTLE_BUTTON, n_clicks=0),
                     html.Button("Start the history again", id=ids.RESET_BUTTON, n_clicks=0, className="secondary"),
                 ],
                 className="control-row",
             ),
             html.Div(id=ids.YEARS_MESSAGE, className="field-message", role="alert"),
+            html.Div(id=ids.HISTORY_NOTE, className="history-note", role="status"),
         ],
-        className="card",
+        className="card load-card",
     )
 
 
@@ -157,8 +201,8 @@ def build_view(params: LakeParameters, profile: LakeProfile) -> list[Any]:
                 html.Section(
                     [
                         _load_card(profile),
-                        dcc.Graph(id=ids.EQUILIBRIUM_GRAPH, config=graph_config("turnback-equilibria")),
-                        dcc.Graph(id=ids.TIME_GRAPH, config=graph_config("turnback-history")),
+                        graph(ids.EQUILIBRIUM_GRAPH, "turnback-equilibria", "graph-equilibrium"),
+                        graph(ids.TIME_GRAPH, "turnback-history", "graph-time"),
                     ],
                     className="figures",
                 ),

@@ -17,18 +17,30 @@ from .figures import regime_map_figure
 AXES = ("loss_rate", "recycling_max")
 
 
-def cloud_note(rmap: RegimeMap, samples: np.ndarray, load: float) -> tuple[tuple[list[float], list[float]], str]:
-    """The bootstrap lakes that share this lake's exponent, placed on the map, and a sentence about them."""
+def cloud_note(
+    rmap: RegimeMap, samples: np.ndarray, load: float, meeting: bool = False
+) -> tuple[tuple[list[float], list[float]], str]:
+    """Every bootstrap lake placed on the map's plane, and a sentence about them.
+
+    Each lake goes to the point of this plane with its own dimensionless load
+    ``a = L/r`` and ratio ``b = s m/r`` (:meth:`RegimeMap.place`).  For a lake
+    with this lake's exponent q that point has exactly its regime; for another
+    q it sits near, not exactly on, its own fold lines.
+    """
     x, y, same_q = rmap.place(samples, load)
-    shown = int(np.count_nonzero(same_q))
-    if shown < len(samples):
-        note = (
-            f" The cloud shows {shown} of {len(samples)} bootstrap lakes that share this lake's recycling exponent "
-            "exactly; the others have a different q and are counted in the regime probabilities instead."
-        )
+    ok = np.isfinite(x) & np.isfinite(y)
+    n_other = int(np.count_nonzero(ok & ~same_q))
+    shown = int(np.count_nonzero(ok))
+    if meeting:
+        note = f" The small dots are {shown} other lakes that fit the record about as well."
     else:
-        note = f" The cloud shows {shown} bootstrap lakes from the fit."
-    return (x[same_q].tolist(), y[same_q].tolist()), note
+        note = f" The cloud shows {shown} bootstrap lakes from the fit, each placed by its own a = L/r and b = s m/r."
+        if n_other:
+            note += (
+                f" {n_other} of them have another recycling exponent q, so their place relative to these fold "
+                "lines is approximate; their exact regimes are in the fit's regime probabilities."
+            )
+    return (x[ok].tolist(), y[ok].tolist()), note
 
 
 def on_map(
@@ -47,12 +59,16 @@ def on_map(
     load = h["load"][-1] if h else profile.load_kg_per_yr
     rmap = regime_map(params, axis=axis if axis in AXES else "loss_rate")  # type: ignore[arg-type]
     cloud = None
-    note = f"This lake: {rmap.axis.replace('_', ' ')} {rmap.lake_parameter:.4g} at a load of {load:,.0f} kg/yr."
+    meeting = is_meeting(meeting_value)
+    if meeting:
+        note = f"This lake at its inflow now, {load:,.0f} kg/yr."
+    else:
+        note = f"This lake: {rmap.axis.replace('_', ' ')} {rmap.lake_parameter:.4g} at a load of {load:,.0f} kg/yr."
     own = fit_of(lake, fit)
     if own and own.get("cloud"):
-        cloud, more = cloud_note(rmap, np.asarray(own["cloud"], dtype=float), load)
+        cloud, more = cloud_note(rmap, np.asarray(own["cloud"], dtype=float), load, meeting)
         note += more
-    return regime_map_figure(rmap, load_now=load, cloud=cloud, meeting=is_meeting(meeting_value)), note
+    return regime_map_figure(rmap, load_now=load, cloud=cloud, meeting=meeting), note
 
 
 def register(app: Dash) -> None:

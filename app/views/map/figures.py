@@ -8,7 +8,8 @@ import numpy as np
 import plotly.graph_objects as go
 from turnback.model.regime_map import RegimeMap
 
-from ...theme import BISTABLE, CLEAR, CURRENT, FOLD, REGIME_FILL, TURBID, height, load_axis_title, sizes
+from ...theme import BISTABLE, CLEAR, CURRENT, FOLD, REGIME_FILL, TURBID, load_axis_title, sizes
+from ...vocabulary import REGIME_SHORT, term
 
 
 def regime_map_figure(
@@ -21,25 +22,27 @@ def regime_map_figure(
     """The (load, parameter) plane: regime bands, fold curves, the bistable wedge, the lake and its fitted cloud."""
     sz = sizes(meeting)
     sty = {"font": sz.font, "line": sz.line, "marker": sz.marker}
-    axis_title = {
-        "loss_rate": "Loss rate s [yr⁻¹]" if not meeting else "How fast the lake loses phosphorus (per year)",
-        "recycling_max": "Maximum recycling r [kg yr⁻¹]" if not meeting else "Phosphorus released from mud (kg/yr)",
-    }[rmap.axis]
+    axis_title = term("loss_rate_axis" if rmap.axis == "loss_rate" else "recycling_axis", meeting)
     fig = go.Figure()
     lo_p, hi_p = rmap.parameter_range
     loads = np.concatenate([rmap.tipping.load, rmap.recovery.load, [load_now, 0.0]])
     x_hi = max(float(np.nanmax(loads)), load_now) * 1.15
     x_lo = max(min(0.0, float(np.nanmin(loads))) * 1.05, -0.6 * x_hi)
     for reg, b_lo, b_hi in rmap.bands:
-        fig.add_hrect(
-            y0=b_lo,
-            y1=b_hi,
-            fillcolor=REGIME_FILL[reg],
-            line_width=0,
-            layer="below",
-            annotation_text=reg,
-            annotation_position="top right",
-            annotation_font={"size": sty["font"] - 2, "color": "#444"},
+        fig.add_hrect(y0=b_lo, y1=b_hi, fillcolor=REGIME_FILL[reg], line_width=0, layer="below")
+        if max(b_lo, lo_p) >= min(b_hi, hi_p):
+            continue
+        # named in the right margin, clear of the fold lines
+        fig.add_annotation(
+            x=1.01,
+            xref="paper",
+            xanchor="left",
+            y=0.5 * (max(b_lo, lo_p) + min(b_hi, hi_p)),
+            yref="y",
+            showarrow=False,
+            align="left",
+            text=REGIME_SHORT[reg][1 if meeting else 0],
+            font={"size": sty["font"] - 3, "color": "#444"},
         )
     if x_lo < 0:
         fig.add_vrect(
@@ -48,7 +51,7 @@ def regime_map_figure(
             fillcolor="rgba(120,120,120,0.12)",
             line_width=0,
             layer="below",
-            annotation_text="below zero load",
+            annotation_text=term("below_zero", meeting),
             annotation_position="bottom left",
             annotation_font={"size": sty["font"] - 4, "color": "#555"},
         )
@@ -61,7 +64,7 @@ def regime_map_figure(
             fillcolor=BISTABLE,
             line={"color": "rgba(0,0,0,0)"},
             hoverinfo="skip",
-            name="two stable states",
+            name=term("band", meeting),
             showlegend=True,
         )
     )
@@ -70,7 +73,7 @@ def regime_map_figure(
             x=rmap.tipping.load,
             y=rmap.tipping.parameter,
             mode="lines",
-            name="tipping fold",
+            name=term("tipping_fold", meeting),
             line={"color": CLEAR, "width": sty["line"]},
             hovertemplate="tipping fold: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
         )
@@ -80,7 +83,7 @@ def regime_map_figure(
             x=rmap.recovery.load,
             y=rmap.recovery.parameter,
             mode="lines",
-            name="recovery fold",
+            name=term("recovery_fold", meeting),
             line={"color": TURBID, "width": sty["line"]},
             hovertemplate="recovery fold: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
         )
@@ -91,7 +94,7 @@ def regime_map_figure(
                 x=[rmap.cusp.load],
                 y=[rmap.cusp.parameter],
                 mode="markers",
-                name="cusp",
+                name=term("cusp", meeting),
                 marker={"symbol": "diamond", "size": sty["marker"], "color": FOLD},
             )
         )
@@ -101,8 +104,8 @@ def regime_map_figure(
                 x=list(cloud[0]),
                 y=list(cloud[1]),
                 mode="markers",
-                name="fitted lakes (bootstrap)",
-                marker={"size": 4, "color": "rgba(91, 74, 138, 0.35)"},
+                name=term("cloud", meeting),
+                marker={"size": 5, "color": "rgba(91, 74, 138, 0.4)"},
                 hoverinfo="skip",
             )
         )
@@ -111,7 +114,7 @@ def regime_map_figure(
             x=[load_now],
             y=[rmap.lake_parameter],
             mode="markers",
-            name="this lake now",
+            name=term("lake_marker", meeting),
             marker={"size": sty["marker"] * 1.4, "color": CURRENT, "line": {"color": "white", "width": 2}},
             hovertemplate="this lake: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
         )
@@ -119,10 +122,11 @@ def regime_map_figure(
     fig.update_layout(
         template="plotly_white",
         font={"size": sty["font"]},
-        height=height("map", meeting),
-        margin={"l": 80, "r": 20, "t": 40, "b": 60},
+        autosize=True,
+        margin={"l": 90, "r": 140, "t": 70, "b": 60},
         xaxis={"title": load_axis_title(meeting), "range": [x_lo, x_hi]},
         yaxis={"title": axis_title, "range": [lo_p, hi_p]},
-        legend={"orientation": "h", "yanchor": "bottom", "y": 1.01, "x": 0.0},
+        # in a band of its own above the plot, clear of the axis titles
+        legend={"orientation": "h", "yref": "container", "yanchor": "top", "y": 1.0, "x": 0.0},
     )
     return fig

@@ -14,7 +14,7 @@ from functools import partial
 from pathlib import Path
 from typing import Any
 
-from dash import Dash, Input, Output, State, ctx, no_update
+from dash import Dash, Input, Output, State, ctx, html, no_update
 from turnback.model.ensemble import compare_plan
 from turnback.model.plan import Plan
 from turnback.model.progress import RunCancelled
@@ -36,9 +36,9 @@ from .export import export
 from .figures import empty_figure, outcome_table, result_figures, table_columns
 from .form import FORM_KEYS, SECTIONS
 from .precaution import precaution_request, run_precaution
-from .readout import lake_note, plan_lake, precaution_words, results_note
+from .readout import is_stale, lake_note, plan_lake, precaution_words, results_note
 from .saved import load_saved, save_plan, saved_details, saved_options
-from .scenarios import action_outputs, list_rows, plan_action, selected_indices
+from .scenarios import action_outputs, list_rows, plan_action, selected_indices, with_baseline
 
 Lake = Mapping[str, Any]
 Store = Mapping[str, Any] | None
@@ -97,7 +97,8 @@ def run_plan(
 ) -> tuple[Any, str]:
     """Run every scenario of the plan on the current lake; runs as a background callback."""
     token = (request or {}).get("token")
-    scenarios = scenarios_of(plan)
+    _, load_now, _ = state_now(lake, history)
+    scenarios = with_baseline(scenarios_of(plan), load_now)
     if not scenarios:
         return no_update, "Add a scenario to the plan first."
     try:
@@ -118,7 +119,9 @@ def run_plan(
         clear_flag(folder, token)
     progress.show(100, "done")
     n = len(comp.results)
-    return comparison_to_store(comp), f"Ran {n} scenario{'s' if n != 1 else ''}."
+    data = dict(comparison_to_store(comp))
+    data["plan"] = list((plan or {}).get("scenarios", []))  # what the plan held when it ran (see is_stale)
+    return data, f"Ran {n} scenario{'s' if n != 1 else ''}."
 
 
 def on_cancel(clicks: int, run: Store, prec: Store, *, folder: Path) -> tuple[Any, Any]:
@@ -128,8 +131,10 @@ def on_cancel(clicks: int, run: Store, prec: Store, *, folder: Path) -> tuple[An
 
 
 # results ------------------------------------------------------------------------
-def on_results(data: Store, meeting_value: list[str] | None) -> tuple[Any, ...]:
-    """Outcome table (fewer columns in the meeting view) and figures of the last run."""
+def on_results(data: Store, meeting_value: list[str] | None, tab: str | None = ids.TAB_PLANS) -> tuple[Any, ...]:
+    """Outcome table (fewer columns in the meeting view) and figures of the last run (drawn when the view is open)."""
+    if tab != ids.TAB_PLANS:
+        return (no_update,) * 6
     meeting = is_meeting(meeting_value)
     columns = table_columns(meeting)
     if not data or not data.get("results"):
@@ -141,7 +146,7 @@ def on_results(data: Store, meeting_value: list[str] | None) -> tuple[Any, ...]:
         blank = empty_figure("The stored results could not be read; run the plan again.", meeting=meeting)
         return columns, [], blank, blank, blank, blank
     figs = result_figures(comp.results, meeting=meeting)
-    return (columns, outcome_table(comp.results), *figs.values())
+    return (columns, outcome_table(comp.results, meeting), *figs.values())
 
 
 def on_results_note(data: Store, tab: str | None, lake: Lake, history: Store) -> Any:
@@ -158,6 +163,23 @@ def on_results_note(data: Store, tab: str | None, lake: Lake, history: Store) ->
         return results_note(data, current)
     except (ValueError, KeyError, TypeError):
         return "The stored results could not be read; run the plan again."
+
+
+def _current(lake: Lake, history: Store) -> dict[str, Any] | None:
+    try:
+        return plan_lake(lake, history).to_dict()
+    except ValueError:
+        return None
+
+
+def on_stale(data: Store, plan: Store, lake: Lake, tab: str | None, history: Store) -> Any:
+    """The 'results out of date, run again' banner."""
+    why = is_stale(data, plan, _current(lake, history))
+    if not why:
+        return None
+    return html.Div(
+        f"Results out of date: {why}. Run the plan again; exports are refused until then.", className="stale-banner"
+    )
 
 
 # precautionary load ---------------------------------------------------------------
@@ -220,8 +242,18 @@ def on_load_saved(clicks: int, name: str | None, plan: Store, *, data_dir: Path 
 
 
 # exports ------------------------------------------------------------------------------
-def on_export(data: Store, precaution: Store, **_clicks: int) -> tuple[Any, str]:
+def on_export(
+    data: Store, precaution: Store, plan: Store, lake: Lake, history: Store, **_clicks: int
+) -> tuple[Any, str]:
+    why = is_stale(data, plan, _current(lake, history))
+    if why:
+        return no_update, f"Not exported: the results are out of date ({why}). Run the plan again first."
     return export(ctx.triggered_id, data, precaution)
+
+
+def on_new_results(data: Store) -> str:
+    """A new run clears the export message of the last one."""
+    return ""
 
 
 # ---------------------------------------------------------------------------------------
@@ -257,6 +289,7 @@ def _register_form(app: Dash) -> None:
             "edit": Input(ids.PLAN_EDIT, "n_clicks"),
             "duplicate": Input(ids.PLAN_DUPLICATE, "n_clicks"),
             "delete": Input(ids.PLAN_DELETE, "n_clicks"),
+            "new": Input(ids.PLAN_NEW, "n_clicks"),
         },
         state={
             "values": {k: State(ids.PLAN_FORM[k], "value") for k in FORM_KEYS},
@@ -306,6 +339,7 @@ def _register_run(app: Dash, folder: Path) -> None:
         running=[
             (Output(ids.PLAN_RUN, "disabled"), True, False),
             (Output(ids.PLAN_CANCEL, "disabled"), False, True),
+            (Output(ids.PLAN_PROGRESS, "style"), {}, {"display": "none"}),
         ],
         interval=300,
         prevent_initial_call=True,
@@ -331,7 +365,11 @@ def _register_results(app: Dash) -> None:
             Output(ids.PLAN_RECOVERY_GRAPH, "figure"),
             Output(ids.PLAN_LOAD_GRAPH, "figure"),
         ],
-        inputs={"data": Input(ids.PLAN_RESULTS_STORE, "data"), "meeting_value": Input(ids.MEETING_TOGGLE, "value")},
+        inputs={
+            "data": Input(ids.PLAN_RESULTS_STORE, "data"),
+            "meeting_value": Input(ids.MEETING_TOGGLE, "value"),
+            "tab": Input(ids.VIEW_TABS, "value"),
+        },
     )(on_results)
     app.callback(
         output=Output(ids.PLAN_RESULTS_NOTE, "children"),
@@ -345,9 +383,30 @@ def _register_results(app: Dash) -> None:
             "trajectories": Input(ids.PLAN_EXPORT_TRAJECTORIES, "n_clicks"),
             "table": Input(ids.PLAN_EXPORT_TABLE, "n_clicks"),
         },
-        state={"data": State(ids.PLAN_RESULTS_STORE, "data"), "precaution": State(ids.PLAN_PRECAUTION_STORE, "data")},
+        state={
+            "data": State(ids.PLAN_RESULTS_STORE, "data"),
+            "precaution": State(ids.PLAN_PRECAUTION_STORE, "data"),
+            "plan": State(ids.PLAN_STORE, "data"),
+            "lake": State(ids.LAKE_STORE, "data"),
+            "history": State(ids.HISTORY_STORE, "data"),
+        },
         prevent_initial_call=True,
     )(on_export)
+    app.callback(
+        output=Output(ids.PLAN_EXPORT_MESSAGE, "children", allow_duplicate=True),
+        inputs={"data": Input(ids.PLAN_RESULTS_STORE, "data")},
+        prevent_initial_call=True,
+    )(on_new_results)
+    app.callback(
+        output=Output(ids.PLAN_STALE, "children"),
+        inputs={
+            "data": Input(ids.PLAN_RESULTS_STORE, "data"),
+            "plan": Input(ids.PLAN_STORE, "data"),
+            "lake": Input(ids.LAKE_STORE, "data"),
+            "tab": Input(ids.VIEW_TABS, "value"),
+        },
+        state={"history": State(ids.HISTORY_STORE, "data")},
+    )(on_stale)
 
 
 def _register_precaution(app: Dash, folder: Path) -> None:

@@ -8,7 +8,8 @@ import dash_ag_grid as dag
 from dash import dcc, html
 
 from ... import ids
-from ...theme import graph_config
+from ...theme import both, graph
+from ...vocabulary import TROPHIC_RULE
 from .figures import FIGURES, table_columns
 
 INTRO = (
@@ -33,12 +34,13 @@ DEFINITIONS = (
     "('–' when none start clear). "
     "Recovery year: the first year (year 0 is the start) in which a member is clear and stays clear for the "
     "scenario's number of consecutive years (3 unless set), all within the horizon. The median counts members "
-    "that never recover as never; '–' when fewer than half recover. A lake that starts clear counts as recovered "
-    "in year 0, so read it with 'Turbid again after recovering': the share of recovered members that turn "
-    "turbid later in the horizon. "
-    "Median final TP: ensemble median in the final year; the Secchi depth and trophic state are what a typical "
-    "phosphorus-limited lake with that TP shows in summer (Carlson 1977 index equivalence; Carlson & Simpson "
-    "1996 bands; OECD 1982 classes, for annual means), not a forecast for this lake. "
+    "that never recover as never; '–' when fewer than half recover. A lake that starts clear has nothing to "
+    "recover from: its recovery columns read 'not applicable', and a lake that flips is never counted as "
+    "recovered. "
+    "Median final TP: ensemble median in the final year; the Secchi depth is what a typical phosphorus-limited "
+    "lake with that TP shows in summer (Carlson 1977 index equivalence), not a forecast for this lake. "
+    + TROPHIC_RULE
+    + " "
     "Load cut: the years' do-nothing load (held where it starts) minus the scheduled load, summed; in-lake "
     "removal: P actually taken out (mean over members)."
 )
@@ -46,6 +48,20 @@ PRECAUTION_HINT = (
     "The largest sustained load whose chance of flipping from clear to turbid within the years given is at most "
     "the limit, for a lake that starts at its clear state, under the chosen scenario's load variability, process "
     "noise, members, seed and clear-state rule. The ± is its Monte-Carlo error (one standard error)."
+)
+
+DEFINITIONS_PLAIN = (
+    "Each plan is run many times with the inflow swinging from year to year. Clear: the lake is on the clear side "
+    "of the dividing line that year. 'Chance it turns green' counts runs that start clear and turn turbid in some "
+    "later year. 'Typical year it is clear again' is for a lake that starts turbid: the year half the runs are "
+    "clear and stay clear; a lake that starts clear reads 'not applicable'. The see-through depth and nutrient "
+    "level are what a typical lake with that much phosphorus shows in summer, not a forecast for this lake. A "
+    "'Do nothing' plan, the inflow held where it is now, is added to every run for comparison."
+)
+PRECAUTION_HINT_PLAIN = (
+    "The highest inflow that keeps the chance of the lake turning green within the years given below the limit, "
+    "for a lake that starts clear, with the chosen plan's year-to-year swings. The ± is the uncertainty from "
+    "running a limited number of times."
 )
 
 #: graph ids in the order of :data:`app.views.plans.figures.FIGURES`
@@ -63,7 +79,7 @@ def _input(key: str, value: str = "", placeholder: str = "", wide: bool = False)
     )
 
 
-def _field(key: str, label: str, value: str = "", placeholder: str = "", wide: bool = False) -> html.Div:
+def _field(key: str, label: Any, value: str = "", placeholder: str = "", wide: bool = False) -> html.Div:
     return html.Div(
         [html.Label(label, htmlFor=ids.PLAN_FORM[key]), _input(key, value, placeholder, wide)],
         className="field",
@@ -92,7 +108,7 @@ def _form() -> html.Div:
             ),
             html.Fieldset(
                 [
-                    html.Legend("External load"),
+                    html.Legend(both("External load", "Phosphorus inflow")),
                     dcc.RadioItems(
                         id=f["load_kind"],
                         options=[
@@ -156,7 +172,7 @@ def _form() -> html.Div:
                     ),
                     html.Div(
                         [
-                            _field("inact_percent", "Recycling cut by [%]"),
+                            _field("inact_percent", both("Recycling cut by [%]", "Release from the mud cut by [%]")),
                             _field("inact_year", "from year"),
                             _field("inact_years", "for [years]"),
                         ],
@@ -169,24 +185,38 @@ def _form() -> html.Div:
             ),
             html.Fieldset(
                 [
-                    html.Legend("Variability and ensemble"),
+                    html.Legend(both("Variability and ensemble", "Year-to-year swings and simulated runs")),
                     html.Div(
                         [
-                            _field("cv", "Load variability (CV)", "0.2"),
-                            _field("noise_sd", "Process noise sd [kg]", placeholder="none"),
-                            _field("members", "Members", "500"),
-                            _field("seed", "Seed", "1", placeholder="fresh each run"),
+                            _field("cv", both("Load variability (CV)", "Swing in inflow (0.2 = 20%)"), "0.2"),
+                            _field(
+                                "noise_sd",
+                                both("Process noise sd [kg]", "Random swing in the lake (kg)"),
+                                placeholder="none",
+                            ),
+                            _field("members", both("Members", "Simulated runs"), "500"),
+                            _field("seed", both("Seed", "Repeatable number"), "1", placeholder="fresh each run"),
                         ],
                         className="plan-fields",
                     ),
                     html.Details(
                         [
-                            html.Summary("Clear-state rule and recovery"),
+                            html.Summary(both("Clear-state rule and recovery", "When the lake counts as clear")),
                             dcc.RadioItems(
                                 id=f["clear_rule"],
                                 options=[
-                                    {"label": "below the unstable equilibrium (default)", "value": "separatrix"},
-                                    {"label": "below the TP of the tipping fold", "value": "tipping_fold"},
+                                    {
+                                        "label": html.Span(
+                                            both("below the unstable equilibrium (default)", "below the dividing line")
+                                        ),
+                                        "value": "separatrix",
+                                    },
+                                    {
+                                        "label": html.Span(
+                                            both("below the TP of the tipping fold", "below the tipping point's level")
+                                        ),
+                                        "value": "tipping_fold",
+                                    },
                                     {"label": "below a fixed TP", "value": "fixed"},
                                 ],
                                 value="separatrix",
@@ -209,6 +239,7 @@ def _form() -> html.Div:
             html.Div(
                 [
                     html.Button("Add to the plan", id=ids.PLAN_ADD, n_clicks=0),
+                    html.Button("New scenario (clean form)", id=ids.PLAN_NEW, n_clicks=0, className="secondary"),
                     html.Button(
                         "Save changes to the scenario being edited",
                         id=ids.PLAN_UPDATE,
@@ -265,7 +296,7 @@ def _list_card() -> html.Div:
             ),
             html.Div(
                 [
-                    html.Progress(id=ids.PLAN_PROGRESS, value="0", max="100"),
+                    html.Progress(id=ids.PLAN_PROGRESS, value="0", max="100", style={"display": "none"}),
                     html.Span(id=ids.PLAN_PROGRESS_TEXT, className="hint"),
                 ],
                 className="progress-row",
@@ -280,6 +311,7 @@ def _results_card() -> html.Div:
     return html.Div(
         [
             html.H2("Outcomes side by side"),
+            html.Div(id=ids.PLAN_STALE, role="alert"),
             html.Div(id=ids.PLAN_RESULTS_NOTE, className="readout-row"),
             html.P("Click a column heading to sort.", className="hint"),
             dag.AgGrid(
@@ -303,7 +335,7 @@ def _results_card() -> html.Div:
                 },
                 className="plan-grid-table",
             ),
-            html.P(DEFINITIONS, id=ids.PLAN_DEFINITIONS, className="hint plan-definitions"),
+            html.P(both(DEFINITIONS, DEFINITIONS_PLAIN), id=ids.PLAN_DEFINITIONS, className="hint plan-definitions"),
             html.P(RESULT_CAUTION, className="treatment-caution"),
             html.Div(
                 [
@@ -320,7 +352,7 @@ def _results_card() -> html.Div:
             html.Div(id=ids.PLAN_EXPORT_MESSAGE, className="field-message", role="alert"),
             html.Div(
                 [
-                    dcc.Graph(id=graph_id, config=graph_config(f"turnback-plan-{key}"))
+                    graph(graph_id, f"turnback-plan-{key}", "graph-plan")
                     for key, graph_id in zip(FIGURES, GRAPHS, strict=True)
                 ],
                 className="plan-figures",
@@ -334,7 +366,7 @@ def _precaution_card() -> html.Div:
     return html.Div(
         [
             html.H2("Precautionary load"),
-            html.P(PRECAUTION_HINT, className="hint"),
+            html.P(both(PRECAUTION_HINT, PRECAUTION_HINT_PLAIN), className="hint"),
             html.Label("Under the variability of", htmlFor=ids.PLAN_PREC_SCENARIO),
             dcc.RadioItems(id=ids.PLAN_PREC_SCENARIO, options=[], value=None, className="plan-radio"),
             html.Div(

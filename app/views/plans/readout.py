@@ -45,6 +45,17 @@ def lake_note(lake: Mapping[str, Any], history: Mapping[str, Any] | None) -> lis
     ]
 
 
+def is_stale(data: Mapping[str, Any] | None, plan: Mapping[str, Any] | None, current: Mapping[str, Any] | None) -> str:
+    """Why the last run no longer matches the plan or the lake ('' when it still does)."""
+    if not data or not data.get("results"):
+        return ""
+    if "plan" in data and list(data["plan"]) != list((plan or {}).get("scenarios", [])):
+        return "the plan's scenarios changed since this run"
+    if current is not None and not same_lake(current, data["lake"]):
+        return "the lake or its state changed since this run"
+    return ""
+
+
 def results_note(data: Mapping[str, Any], current: Mapping[str, Any] | None) -> list[Any]:
     lake = ScenarioLake.from_dict(data["lake"])
     n = len(data["results"])

@@ -12,10 +12,57 @@ from typing import Any
 
 from dash import html, no_update
 from turnback.model.plan import MAX_SCENARIOS, Scenario
+from turnback.model.schedules import ConstantLoad
 
 from ... import ids
 from ...stores import plan_to_store, scenarios_of
-from .form import FORM_KEYS, SECTIONS, form_from_scenario, parse_form
+from .form import FORM_DEFAULTS, FORM_KEYS, SECTIONS, form_from_scenario, parse_form
+
+#: name of the do-nothing scenario a run adds when the plan has none
+BASELINE_NAME = "Do nothing (baseline)"
+
+
+def clean_form(names: Sequence[str]) -> dict[str, str]:
+    """A new scenario's form: every entry at its default (nothing carried over), with a free name."""
+    return dict(FORM_DEFAULTS) | {"name": free_name(list(names))}
+
+
+def is_do_nothing(s: Scenario, load_now: float) -> bool:
+    """Whether a scenario holds the load now, with no treatments."""
+    return (
+        isinstance(s.load, ConstantLoad)
+        and abs(s.load.kg_per_yr - load_now) <= 1e-6 * max(1.0, abs(load_now))
+        and not s.treatments
+    )
+
+
+def with_baseline(scenarios: Sequence[Scenario], load_now: float) -> list[Scenario]:
+    """The plan's scenarios with a do-nothing baseline last, unless one is already there.
+
+    The baseline holds the load now for the longest horizon, with the first
+    scenario's variability, members, seed and clear-state rule, so it is
+    compared like for like.
+    """
+    out = list(scenarios)
+    if not out or any(is_do_nothing(s, load_now) for s in out) or len(out) >= MAX_SCENARIOS:
+        return out
+    first = out[0]
+    try:
+        base = Scenario(
+            name=BASELINE_NAME if BASELINE_NAME not in [s.name for s in out] else copy_name(BASELINE_NAME, []),
+            years=max(s.years for s in out),
+            load=ConstantLoad(load_now),
+            variability_cv=first.variability_cv,
+            process_noise_sd_kg=first.process_noise_sd_kg,
+            members=first.members,
+            seed=first.seed,
+            clear_threshold=first.clear_threshold,
+            recovery_stay_years=first.recovery_stay_years,
+            description="Added automatically: the inflow held at the load now, no treatments.",
+        )
+    except ValueError:
+        return out
+    return [*out, base]
 
 
 def list_rows(scenarios: Sequence[Scenario]) -> list[dict[str, str]]:
@@ -91,8 +138,9 @@ def _add_or_update(
         return out | {
             "plan": plan_to_store(scenarios),
             "selected": [i],
-            "editing": {"name": scenario.name, "extra": extra, "description": description},
-            "status": f"Saved the changes to {scenario.name!r}.",
+            "editing": None,
+            "form": clean_form([s.name for s in scenarios]),
+            "status": f"Saved the changes to {scenario.name!r}. The form is clean for a new scenario.",
         }
     if len(scenarios) >= MAX_SCENARIOS:
         return out | {"status": f"A plan holds at most {MAX_SCENARIOS} scenarios: delete one before adding another."}
@@ -100,8 +148,10 @@ def _add_or_update(
     return out | {
         "plan": plan_to_store(scenarios),
         "selected": [len(scenarios) - 1],
-        "form": {"name": free_name([s.name for s in scenarios])},
-        "status": f"Added {scenario.name!r}: {_plural(len(scenarios))} in the plan.",
+        "editing": None,
+        "form": clean_form([s.name for s in scenarios]),
+        "status": f"Added {scenario.name!r}: {_plural(len(scenarios))} in the plan. The form is clean for the next "
+        "one (use Duplicate to start from a copy).",
     }
 
 
@@ -162,6 +212,13 @@ def plan_action(
     scenarios = scenarios_of(plan)
     if trigger in (ids.PLAN_ADD, ids.PLAN_UPDATE):
         return _add_or_update(trigger, values, scenarios, editing, load_now)
+    if trigger == ids.PLAN_NEW:
+        return {
+            "form": clean_form([s.name for s in scenarios]),
+            "editing": None,
+            "messages": {k: [] for k in SECTIONS},
+            "status": "A clean form for a new scenario: nothing is copied from the others.",
+        }
     if trigger not in (ids.PLAN_EDIT, ids.PLAN_DUPLICATE, ids.PLAN_DELETE):
         return {}
     sel = selected[0] if selected and 0 <= selected[0] < len(scenarios) else None

@@ -12,28 +12,33 @@ from turnback.model.clarity import expected_chl, expected_secchi
 from turnback.model.early_warning import EarlyWarning
 
 from ...theme import CLEAR, HISTORY, TODAY, TURBID, sizes
+from ...vocabulary import term
 
 
-def _base(fig: go.Figure, height: int, meeting: bool) -> go.Figure:
+def _base(fig: go.Figure, top: int, meeting: bool) -> go.Figure:
+    """Shared look: the legend in a band of its own at the top (outside the plot, clear of titles)."""
+    font = sizes(meeting).text
     fig.update_layout(
         template="plotly_white",
-        font={"size": sizes(meeting).text},
-        height=height,
-        margin={"l": 80, "r": 20, "t": 30, "b": 50},
-        legend={"orientation": "h", "yanchor": "bottom", "y": 1.01, "x": 0.0},
+        font={"size": font},
+        autosize=True,
+        margin={"l": 80, "r": 20, "t": top, "b": 50},
+        legend={"orientation": "h", "yref": "container", "yanchor": "top", "y": 1.0, "x": 0.0},
     )
     return fig
 
 
 def record_figure(record: Mapping[str, Any], *, meeting: bool = False) -> go.Figure:
     """Observed lake TP [µg L⁻¹] and external load [kg yr⁻¹] by year."""
+    tp_name = "lake phosphorus (measured)" if meeting else "lake TP (observed)"
+    load_name = "phosphorus inflow (measured)" if meeting else "external load (observed)"
     fig = make_subplots(rows=2, cols=1, shared_xaxes=True, row_heights=[0.6, 0.4], vertical_spacing=0.07)
     fig.add_trace(
         go.Scatter(
             x=record["year"],
             y=record["tp_ug_l"],
             mode="lines+markers",
-            name="lake TP (observed)",
+            name=tp_name,
             line={"color": HISTORY},
             hovertemplate="%{x}: %{y:.1f} µg/L<extra></extra>",
         ),
@@ -45,27 +50,39 @@ def record_figure(record: Mapping[str, Any], *, meeting: bool = False) -> go.Fig
             x=record["year"],
             y=record["load_kg"],
             mode="lines+markers",
-            name="external load (observed)",
+            name=load_name,
             line={"color": TODAY, "shape": "hv"},
             hovertemplate="%{x}: %{y:.0f} kg/yr<extra></extra>",
         ),
         row=2,
         col=1,
     )
-    fig.update_yaxes(title_text="TP [µg L⁻¹]", row=1, col=1, rangemode="tozero")
-    fig.update_yaxes(title_text="Load [kg yr⁻¹]", row=2, col=1, rangemode="tozero")
+    fig.update_yaxes(title_text=term("tp_short", meeting), row=1, col=1, rangemode="tozero")
+    fig.update_yaxes(title_text=term("inflow_short", meeting), row=2, col=1, rangemode="tozero")
     fig.update_xaxes(title_text="Year", row=2, col=1)
-    return _base(fig, 430, meeting)
+    return _base(fig, 50, meeting)
 
 
 def clarity_figure(record: Mapping[str, Any], *, meeting: bool = False) -> go.Figure:
     """Observed Secchi depth and chlorophyll-a against those expected from observed TP (Carlson 1977)."""
     years = np.asarray(record["year"])
     tp = np.asarray(record["tp_ug_l"], dtype=float)
-    fig = make_subplots(rows=1, cols=2, subplot_titles=("Secchi depth [m]", "Chlorophyll-a [µg L⁻¹]"))
+    titles = (
+        ("See-through depth (m)", "Algae (µg/L of green pigment)")
+        if meeting
+        else (
+            "Secchi depth [m]",
+            "Chlorophyll-a [µg L⁻¹]",
+        )
+    )
+    fig = make_subplots(rows=1, cols=2, subplot_titles=titles)
     fig.add_trace(
         go.Scatter(
-            x=years, y=expected_secchi(tp), mode="lines", name="expected from TP", line={"color": CLEAR, "dash": "dash"}
+            x=years,
+            y=expected_secchi(tp),
+            mode="lines",
+            name="expected from lake phosphorus" if meeting else "expected from TP",
+            line={"color": CLEAR, "dash": "dash"},
         ),
         row=1,
         col=1,
@@ -84,7 +101,13 @@ def clarity_figure(record: Mapping[str, Any], *, meeting: bool = False) -> go.Fi
     )
     if record.get("secchi_m") is not None:
         fig.add_trace(
-            go.Scatter(x=years, y=record["secchi_m"], mode="markers", name="observed", marker={"color": CLEAR}),
+            go.Scatter(
+                x=years,
+                y=record["secchi_m"],
+                mode="markers",
+                name="measured" if meeting else "observed",
+                marker={"color": CLEAR},
+            ),
             row=1,
             col=1,
         )
@@ -102,7 +125,7 @@ def clarity_figure(record: Mapping[str, Any], *, meeting: bool = False) -> go.Fi
             col=2,
         )
     fig.update_yaxes(rangemode="tozero")
-    return _base(fig, 330, meeting)
+    return _base(fig, 80, meeting)
 
 
 def warning_figure(ew: EarlyWarning, *, meeting: bool = False) -> go.Figure:
@@ -112,15 +135,31 @@ def warning_figure(ew: EarlyWarning, *, meeting: bool = False) -> go.Figure:
         cols=1,
         shared_xaxes=True,
         vertical_spacing=0.04,
-        subplot_titles=("series and trend", "variance", "lag-1 autocorrelation", "skewness"),
+        subplot_titles=(
+            ("lake phosphorus and its slow trend", "year-to-year swings", "slowness to recover", "lopsidedness")
+            if meeting
+            else ("series and trend", "variance", "lag-1 autocorrelation", "skewness")
+        ),
     )
     fig.add_trace(
-        go.Scatter(x=ew.years, y=ew.values, mode="lines+markers", name="series", line={"color": HISTORY}), row=1, col=1
+        go.Scatter(
+            x=ew.years,
+            y=ew.values,
+            mode="lines+markers",
+            name="lake phosphorus" if meeting else "series",
+            line={"color": HISTORY},
+        ),
+        row=1,
+        col=1,
     )
     if ew.bandwidth is not None:
         fig.add_trace(
             go.Scatter(
-                x=ew.years, y=ew.smooth, mode="lines", name="Gaussian trend", line={"color": "#555", "dash": "dot"}
+                x=ew.years,
+                y=ew.smooth,
+                mode="lines",
+                name="slow trend" if meeting else "Gaussian trend",
+                line={"color": "#555", "dash": "dot"},
             ),
             row=1,
             col=1,
@@ -133,4 +172,4 @@ def warning_figure(ew: EarlyWarning, *, meeting: bool = False) -> go.Figure:
         )
     fig.update_xaxes(title_text="Year", row=4, col=1)
     fig.update_layout(showlegend=True)
-    return _base(fig, 620, meeting)
+    return _base(fig, 70, meeting)

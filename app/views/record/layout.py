@@ -8,13 +8,20 @@ from dash import dcc, html
 
 from ... import ids
 from ...store_checks import MAX_UPLOAD_BYTES
-from ...theme import graph_config
+from ...theme import both, graph
 
 FORMAT_HINT = (
-    "CSV with one row a year: year, load_kg (external TP load that year, kg), tp_ug_l (lake mean TP, µg/L); "
-    "optionally secchi_m and chl_ug_l. At least 10 consecutive years. The invented record of the demo lake is "
-    "loaded to start with."
+    "CSV with one row a year: year (a four-digit calendar year, consecutive), load_kg (external TP load that "
+    "year, kg), tp_ug_l (lake mean TP, µg/L); optionally secchi_m and chl_ug_l. From 10 to 5,000 years. The "
+    "invented record of the demo lake is loaded to start with."
 )
+FORMAT_HINT_PLAIN = (
+    "A CSV file with one row a year: year, load_kg (phosphorus inflow that year, kg) and tp_ug_l (phosphorus in "
+    "the lake, µg/L). At least 10 years in a row. The invented record of the demo lake is loaded to start with."
+)
+
+
+_ARIA_PROGRESS: Any = {"aria-label": "Progress of the fit"}
 
 _LIMIT: dict[str, Any] = {"data-max-bytes": str(MAX_UPLOAD_BYTES)}  # read by assets/upload-limit.js
 
@@ -24,7 +31,7 @@ def build_view() -> list[html.Div]:
         html.Div(
             [
                 html.H2("Monitoring record"),
-                html.P(FORMAT_HINT, className="hint"),
+                html.P(both(FORMAT_HINT, FORMAT_HINT_PLAIN), className="hint"),
                 dcc.Upload(
                     id=ids.RECORD_UPLOAD,
                     max_size=MAX_UPLOAD_BYTES,
@@ -39,7 +46,7 @@ def build_view() -> list[html.Div]:
                     [
                         html.Label("Lake volume [m³]", htmlFor=ids.RECORD_VOLUME),
                         dcc.Input(id=ids.RECORD_VOLUME, type="text", className="field-input wide"),
-                        html.Label("Bootstrap replicates", htmlFor=ids.RECORD_REPLICATES),
+                        html.Label(both("Bootstrap replicates", "Repeat fits"), htmlFor=ids.RECORD_REPLICATES),
                         dcc.Input(id=ids.RECORD_REPLICATES, type="number", min=100, max=20000, step=100, value=1000),
                         html.Button("Fit the lake model to this record", id=ids.RECORD_FIT_BUTTON, n_clicks=0),
                         html.Button(
@@ -50,26 +57,43 @@ def build_view() -> list[html.Div]:
                 ),
                 html.Div(
                     [
-                        html.Progress(id=ids.RECORD_PROGRESS, value="0", max="100"),
-                        html.Span(id=ids.RECORD_PROGRESS_TEXT, className="hint"),
+                        html.Progress(
+                            id=ids.RECORD_PROGRESS,
+                            value="0",
+                            max="100",
+                            style={"display": "none"},
+                            **_ARIA_PROGRESS,
+                        ),
+                        html.Span(id=ids.RECORD_PROGRESS_TEXT, className="hint", role="status"),
                     ],
                     className="progress-row",
                 ),
                 html.Div(id=ids.RECORD_FIT_RESULT, className="fit-result"),
+                html.Div(
+                    [
+                        html.Button("Use this fitted lake", id=ids.RECORD_USE_FIT, n_clicks=0, disabled=True),
+                        html.Span(id=ids.RECORD_USE_MESSAGE, className="status-ok", role="status"),
+                    ],
+                    className="control-row",
+                ),
             ],
             className="card",
         ),
         html.Div(
             [
                 html.H2("What was measured"),
-                dcc.Graph(id=ids.RECORD_GRAPH, config=graph_config("turnback-record")),
+                graph(ids.RECORD_GRAPH, "turnback-record", "graph-record"),
                 html.P(
-                    "Expected values follow from the observed TP by Carlson's (1977) trophic-state-index "
-                    "equivalence; observed points far from the dashed line mean something other than phosphorus "
-                    "(colour, clay, grazing) is setting the clarity.",
+                    both(
+                        "Expected values follow from the observed TP by Carlson's (1977) trophic-state-index "
+                        "equivalence; observed points far from the dashed line mean something other than "
+                        "phosphorus (colour, clay, grazing) is setting the clarity.",
+                        "The dashed lines are what a typical lake with this much phosphorus shows; measured points "
+                        "far from them mean something else (colour, clay, grazing) is setting the clarity.",
+                    ),
                     className="hint",
                 ),
-                dcc.Graph(id=ids.RECORD_CLARITY_GRAPH, config=graph_config("turnback-clarity")),
+                graph(ids.RECORD_CLARITY_GRAPH, "turnback-clarity", "graph-clarity"),
             ],
             className="card",
         ),
@@ -77,13 +101,18 @@ def build_view() -> list[html.Div]:
             [
                 html.H2("Warning signs in the record"),
                 html.P(
-                    "Rolling variance, lag-1 autocorrelation and skewness of lake TP after removing a Gaussian "
-                    "trend, with Kendall τ trends tested against AR(1) surrogate series (Dakos et al. 2012; "
-                    "Scheffer et al. 2009). Window: half the record.",
+                    both(
+                        "Rolling variance, lag-1 autocorrelation and skewness of lake TP after removing a Gaussian "
+                        "trend, with Kendall τ trends tested against AR(1) surrogate series (Dakos et al. 2012; "
+                        "Scheffer et al. 2009). Window: half the record.",
+                        "A lake nearing a tipping point often swings more from year to year and recovers more "
+                        "slowly from an odd year. These lines follow both through the record, after taking out "
+                        "the slow trend.",
+                    ),
                     className="hint",
                 ),
                 html.Div(id=ids.WARNING_WORDS, className="readout"),
-                dcc.Graph(id=ids.WARNING_GRAPH, config=graph_config("turnback-warning-signs")),
+                graph(ids.WARNING_GRAPH, "turnback-warning-signs", "graph-warning"),
             ],
             className="card",
         ),
