@@ -30,7 +30,7 @@ from dataclasses import dataclass, fields
 from typing import Any, ClassVar
 
 from . import units
-from .validation import FieldError, known_keys, mapping, number, text
+from .validation import FieldError, NumberFields, known_keys, mapping, number, text
 
 __all__ = ["DimensionlessLake", "LakeParameters", "LakeProfile", "recycling_fraction"]
 
@@ -49,7 +49,7 @@ def _check_positive(name: str, value: object, unit: str) -> float:
 
 
 @dataclass(frozen=True)
-class LakeParameters:
+class LakeParameters(NumberFields):
     """Parameters of the phosphorus-recycling lake model.
 
     Parameters
@@ -75,6 +75,8 @@ class LakeParameters:
         lie beyond double precision).  The message names the field and the
         allowed range.
     """
+
+    WHAT: ClassVar[str] = "the four model parameters"
 
     loss_rate: float
     recycling_max: float
@@ -129,23 +131,6 @@ class LakeParameters:
     def to_dimensionless(self) -> DimensionlessLake:
         """The dimensionless lake ``(b, q)`` with ``b = s m / r``."""
         return DimensionlessLake(b=self.s * self.m / self.r, q=self.q)
-
-    def to_dict(self) -> dict[str, float]:
-        return {f.name: getattr(self, f.name) for f in fields(self)}
-
-    @classmethod
-    def from_dict(cls, data: object) -> LakeParameters:
-        names = [f.name for f in fields(cls)]
-        d = mapping(data, (), "the four model parameters: " + ", ".join(names))
-        known_keys(d, (), names)
-        return cls(**{n: d[n] for n in names})
-
-    def to_json(self) -> str:
-        return json.dumps(self.to_dict())
-
-    @classmethod
-    def from_json(cls, text: str) -> LakeParameters:
-        return cls.from_dict(json.loads(text))
 
 
 def recycling_fraction(p: Any, m: float, q: float) -> Any:

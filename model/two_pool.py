@@ -65,7 +65,6 @@ Biology 50, 1747–1771.
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass, fields, replace
 from typing import Any, ClassVar, Literal
 
@@ -73,7 +72,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .params import DimensionlessLake, LakeParameters, recycling_fraction
-from .validation import FieldError, known_keys, mapping, number
+from .validation import FieldError, NumberFields, number
 
 __all__ = ["MODEL_NAMES", "ModelName", "TwoPoolParameters", "check_map_limits", "map_limits_message"]
 
@@ -83,7 +82,7 @@ MODEL_NAMES: tuple[ModelName, ...] = ("one-box", "two-pool")
 
 
 @dataclass(frozen=True)
-class TwoPoolParameters:
+class TwoPoolParameters(NumberFields):
     """Parameters of the two-pool lake (module docstring).
 
     Parameters
@@ -108,6 +107,8 @@ class TwoPoolParameters:
         When a value is not a finite number in its range; the error's path
         names the field.
     """
+
+    WHAT: ClassVar[str] = "the six two-pool parameters"
 
     sedimentation: float
     outflow: float
@@ -235,22 +236,6 @@ class TwoPoolParameters:
         )
 
     # JSON ---------------------------------------------------------------------
-    def to_dict(self) -> dict[str, float]:
-        return {f.name: getattr(self, f.name) for f in fields(self)}
-
-    @classmethod
-    def from_dict(cls, data: object) -> TwoPoolParameters:
-        names = [f.name for f in fields(cls)]
-        d = mapping(data, (), "the six two-pool parameters: " + ", ".join(names))
-        known_keys(d, (), names)
-        return cls(**{n: d[n] for n in names})
-
-    def to_json(self) -> str:
-        return json.dumps(self.to_dict())
-
-    @classmethod
-    def from_json(cls, text: str) -> TwoPoolParameters:
-        return cls.from_dict(json.loads(text))
 
 
 def map_limits_message(params: TwoPoolParameters) -> str | None:

@@ -12,16 +12,19 @@ text.
 
 from __future__ import annotations
 
+import json
 import math
 import re
 from collections.abc import Iterator, Mapping, Sequence
 from contextlib import contextmanager
-from typing import Any
+from dataclasses import fields
+from typing import Any, ClassVar, Self, cast
 
 import numpy as np
 
 __all__ = [
     "FieldError",
+    "NumberFields",
     "finite_number",
     "known_keys",
     "mapping",
@@ -239,3 +242,31 @@ def number_text(
             path, f"is not a number: write a plain number such as 0.5 or 1200 (no separators or words); got {_shown(s)}"
         )
     return number(float(s), path, lo=lo, hi=hi, lo_open=lo_open, hi_open=hi_open, unit=unit)
+
+
+class NumberFields:
+    """JSON round trip for a frozen dataclass of named numbers (model parameters).
+
+    ``from_dict`` refuses unknown and missing keys with a :class:`FieldError`
+    naming them; the dataclass's own ``__post_init__`` checks the values.
+    ``WHAT`` says what the fields are, for that message.
+    """
+
+    WHAT: ClassVar[str] = "the parameters"
+
+    def to_dict(self) -> dict[str, float]:
+        return {f.name: getattr(self, f.name) for f in fields(cast(Any, self))}
+
+    @classmethod
+    def from_dict(cls, data: object) -> Self:
+        names = [f.name for f in fields(cast(Any, cls))]
+        d = mapping(data, (), f"{cls.WHAT}: " + ", ".join(names))
+        known_keys(d, (), names)
+        return cls(**{n: d[n] for n in names})
+
+    def to_json(self) -> str:
+        return json.dumps(self.to_dict())
+
+    @classmethod
+    def from_json(cls, text: str) -> Self:
+        return cls.from_dict(json.loads(text))

@@ -18,6 +18,12 @@ from turnback.model.io.monitoring_csv import parse_monitoring
 
 from tests.model.test_monitoring import CORPUS
 
+from .driver import run_many as _run_many
+
+
+def run_many(cwd: Path, cases: list[list[str]]) -> list[dict[str, object]]:
+    return list(_run_many(cases, cwd, timeout=300))
+
 ROOT = Path(__file__).resolve().parents[2]
 DEMO_CSV = ROOT / "sample_data" / "amberlin_monitoring.csv"
 MALFORMED = Path(__file__).resolve().parents[1] / "malformed"
@@ -109,40 +115,9 @@ def test_bad_input_exits_2_with_one_line(args: list[str], fragment: str) -> None
     assert out.stdout == ""
 
 
-# One interpreter runs the command's entry function once per case (what ``python -m turnback`` does, without
-# paying the start-up for each of the 37 corpus files); every call's exit status, stdout and stderr are kept.
-DRIVER = r"""
-import contextlib, io, json, sys, traceback
-from turnback.app.cli import main
-cases = json.loads(sys.argv[1])
-out = []
-for argv in cases:
-    err, std = io.StringIO(), io.StringIO()
-    with contextlib.redirect_stderr(err), contextlib.redirect_stdout(std):
-        try:
-            rc = main(argv)
-        except SystemExit as exc:
-            rc = exc.code
-        except BaseException:
-            rc = "escaped"
-            err.write(traceback.format_exc())
-    out.append({"rc": rc, "stderr": err.getvalue(), "stdout": std.getvalue()})
-print(json.dumps(out))
-"""
-
-
-def run_many(cases: list[list[str]]) -> list[dict[str, object]]:
-    proc = subprocess.run(
-        [sys.executable, "-c", DRIVER, json.dumps(cases)], capture_output=True, text=True, timeout=300, cwd=ROOT
-    )
-    assert proc.returncode == 0, proc.stderr
-    results: list[dict[str, object]] = json.loads(proc.stdout)
-    return results
-
-
 def test_every_corpus_file_through_the_command() -> None:
     names = sorted(CORPUS)
-    results = run_many([["fit", str(MALFORMED / n), "--volume-m3", "1e6", "--json"] for n in names])
+    results = run_many(ROOT, [["fit", str(MALFORMED / n), "--volume-m3", "1e6", "--json"] for n in names])
     for name, res in zip(names, results, strict=True):
         stderr = str(res["stderr"])
         assert res["rc"] == 2, (name, res)
@@ -166,7 +141,7 @@ def test_bad_options_through_the_command(tmp_path: Path) -> None:
         "cannot read monitoring file": ["fit", str(tmp_path / "absent.csv"), "--volume-m3", "1e6"],
         "cannot read lake file": ["fit", demo, "--lake", str(tmp_path / "absent.toml")],
     }
-    results = run_many(list(cases.values()))
+    results = run_many(ROOT, list(cases.values()))
     for fragment, res in zip(cases, results, strict=True):
         stderr = str(res["stderr"])
         assert res["rc"] == 2, (fragment, res)

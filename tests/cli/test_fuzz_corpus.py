@@ -10,32 +10,13 @@ from __future__ import annotations
 
 import json
 import os
-import subprocess
-import sys
 from pathlib import Path
 from typing import Any
 
+from .driver import run_many
+
 ROOT = Path(__file__).resolve().parents[2]
 CORPUS = json.loads((Path(__file__).resolve().parent / "fuzz_corpus.json").read_text())["cases"]
-
-DRIVER = r"""
-import contextlib, io, json, os, sys, traceback
-from turnback.app.cli import main
-cases = json.loads(sys.stdin.read())
-out = []
-for argv in cases:
-    err, std = io.StringIO(), io.StringIO()
-    with contextlib.redirect_stderr(err), contextlib.redirect_stdout(std):
-        try:
-            rc = main(argv)
-        except SystemExit as exc:
-            rc = exc.code
-        except BaseException:
-            rc = "escaped"
-            err.write(traceback.format_exc())
-    out.append({"rc": rc, "stderr": err.getvalue(), "stdout": std.getvalue()})
-print(json.dumps(out))
-"""
 
 
 def _materialise(folder: Path, files: dict[str, Any]) -> None:
@@ -78,17 +59,7 @@ def test_every_case_exits_as_expected_with_one_line(tmp_path: Path) -> None:
         _materialise(folder, c["files"])
         argvs.append([a.replace("{tmp}", str(folder)) for a in c["args"]])
     env = dict(os.environ, TURNBACK_CACHE_DIR=str(tmp_path / "cache"), TURNBACK_DATA_DIR=str(tmp_path / "data"))
-    proc = subprocess.run(
-        [sys.executable, "-c", DRIVER],
-        input=json.dumps(argvs),
-        capture_output=True,
-        text=True,
-        timeout=600,
-        cwd=tmp_path,
-        env=env,
-    )
-    assert proc.returncode == 0, proc.stderr[-3000:]
-    results = json.loads(proc.stdout)
+    results = run_many(argvs, tmp_path, env)
     failures = []
     for c, res in zip(CORPUS, results, strict=True):
         stderr, stdout = str(res["stderr"]), str(res["stdout"])
