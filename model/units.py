@@ -20,10 +20,33 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["UG_L_PER_KG_M3", "areal_load", "load_from_areal", "mean_depth_m", "p_kg", "tp_ug_l", "volume_m3"]
+__all__ = [
+    "KG_PER_LB",
+    "M2_PER_ACRE",
+    "M3_PER_ACRE_FT",
+    "M_PER_FT",
+    "UG_L_PER_KG_M3",
+    "areal_load",
+    "load_from_areal",
+    "mean_depth_m",
+    "p_kg",
+    "tp_ug_l",
+    "volume_m3",
+]
 
 #: TP [µg L⁻¹] of 1 kg of P in 1 m³ of water: 10⁹ µg / 10³ L.
 UG_L_PER_KG_M3 = 1.0e6
+
+# US customary units, exact by definition (NIST Special Publication 811, 2008 edition, appendix B:
+# Taylor & Thompson, Guide for the Use of the International System of Units).
+#: kilograms in one avoirdupois pound [kg lb⁻¹] (NIST SP 811)
+KG_PER_LB = 0.45359237
+#: metres in one international foot [m ft⁻¹] (NIST SP 811)
+M_PER_FT = 0.3048
+#: square metres in one acre (U.S. survey foot basis as tabulated in NIST SP 811) [m² acre⁻¹]
+M2_PER_ACRE = 4046.8564224
+#: cubic metres in one acre-foot [m³ acre-ft⁻¹] (NIST SP 811)
+M3_PER_ACRE_FT = 1233.48183754752
 
 
 def _values(x: Any) -> Any:

@@ -293,3 +293,16 @@ def test_bad_entry_in_a_series_is_named() -> None:
         clarity(1e7)
     with pytest.raises(ValueError, match="one TP value"):
         clarity([1.0, 2.0])  # type: ignore[arg-type]
+
+
+def test_us_customary_factors_are_the_nist_definitions() -> None:
+    from turnback.model import units
+
+    # NIST Special Publication 811 (2008), Guide for the Use of the International System of Units, appendix B
+    # (exact conversion factors): 1 lb = 0.45359237 kg, 1 ft = 0.3048 m, 1 acre = 4046.8564224 m²,
+    # 1 acre-ft = 1233.48183754752 m³ (from memory; the acre and acre-foot on the survey-foot basis as tabulated).
+    assert units.KG_PER_LB == 0.45359237
+    assert units.M_PER_FT == 0.3048
+    assert units.M2_PER_ACRE == 4046.8564224
+    assert units.M3_PER_ACRE_FT == 1233.48183754752
+    assert units.M3_PER_ACRE_FT / units.M2_PER_ACRE == pytest.approx(units.M_PER_FT, rel=1e-12)  # one foot deep
