@@ -64,7 +64,7 @@ from .point_fit import (
     theta_to_params,
 )
 from .progress import Cancel, Progress, check_cancel, report
-from .state_space import laplace_loglik, state_step
+from .state_space import innovations, laplace_loglik, state_step
 
 __all__ = ["SD_BOUNDS", "FoldDraws", "ObservationErrorFit", "fit_observation_error", "folds_of_draws"]
 
@@ -109,8 +109,10 @@ class ObservationErrorFit:
     ----------
     point : PointFit
         The maximum-likelihood lake parameters in the form of the least-squares
-        fit (estimates with standard errors, residual diagnostics of the
-        process residuals at the most likely states).
+        fit: estimates with standard errors; ``residuals`` are the process
+        residuals at the most likely states, and ``diagnostics`` describe the
+        standardised one-step-ahead prediction errors
+        (:func:`~turnback.model.state_space.innovations`; SD near 1 under the model).
     process_sd : float
         ``σ̂`` [–].
     observation_sd : float or None
@@ -404,12 +406,14 @@ def fit_observation_error(
 
     g, _, _ = state_step(th[None, :], modes[:, :-1], lt[1:])
     resid = (modes[0, 1:] - g[0]).astype(float)
+    tau_used = np.full(p.size, math.exp(th[5])) if estimate_tau else np.asarray(tau, dtype=float)
+    standardised = innovations(th, y, lt, tau_used)
     point = PointFit(
         status="ok",
         message=f"maximum likelihood with observation error ({target.evaluations:,} likelihood evaluations)",
         params=theta_to_params(th[:4]),
         estimates=_estimates(th, cov, lo, hi),
-        diagnostics=_diagnostics(resid, k),
+        diagnostics=_diagnostics(standardised, 0),
         residuals=resid,
         sse=float(-ll_hat[0]),
         theta=th[:4].copy(),
@@ -417,7 +421,6 @@ def fit_observation_error(
         n_starts=len(splits),
         nfev=target.evaluations,
     )
-    tau_used = np.full(p.size, math.exp(th[5])) if estimate_tau else np.asarray(tau, dtype=float)
     report(progress, 0.95, "posterior draws: folds of each draw")
     return ObservationErrorFit(
         point=point,

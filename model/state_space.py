@@ -55,6 +55,9 @@ Kristensen, K., Nielsen, A., Berg, C. W., Skaug, H. & Bell, B. M. (2016).
 TMB: Automatic differentiation and Laplace approximation. Journal of
 Statistical Software 70(5), 1–21.
 
+Harvey, A. C. (1989). Forecasting, Structural Time Series Models and the
+Kalman Filter. Cambridge University Press.
+
 Skaug, H. J. & Fournier, D. A. (2006). Automatic approximation of the
 marginal likelihood in non-Gaussian hierarchical models. Computational
 Statistics & Data Analysis 51(2), 699–709.
@@ -70,7 +73,7 @@ from numpy.typing import ArrayLike, NDArray
 from scipy.linalg import LinAlgError, cho_solve_banded, cholesky_banded
 from scipy.special import expit
 
-__all__ = ["LaplaceResult", "laplace_loglik", "state_step"]
+__all__ = ["LaplaceResult", "innovations", "laplace_loglik", "state_step"]
 
 _LOG_2PI = math.log(2.0 * math.pi)
 
@@ -269,3 +272,31 @@ def laplace_loglik(
     ll = -obj - 0.5 * logdet - (n - 1) * th[:, 4] - np.sum(np.log(t2), axis=1) - 0.5 * (n - 1) * _LOG_2PI
     ll = np.where(np.isfinite(ll) & active, ll, -np.inf)
     return LaplaceResult(loglik=ll, mode=x, converged=converged & active, iterations=iterations)
+
+
+def innovations(theta: ArrayLike, y: ArrayLike, load: ArrayLike, tau: ArrayLike) -> NDArray[np.float64]:
+    r"""Standardised one-step-ahead prediction errors of the record, by an extended Kalman filter [–].
+
+    Diagnostics of the fitted state-space model (Harvey 1989, ch. 5): with
+    ``m₀ = y₀``, ``V₀ = τ₀²`` and for each later year the forecast
+    ``x̄ = g(m)``, ``V̄ = g'(m)² V + σ²``, the innovation
+    ``v = (y - x̄)/sqrt(V̄ + τ²)`` and the update ``m = x̄ + K (y - x̄)``,
+    ``V = (1 - K) V̄`` with ``K = V̄/(V̄ + τ²)``.  Under the model the ``n - 1``
+    values are close to independent standard normal, so their lag-1
+    autocorrelation and normality test what the model misses.
+    """
+    th = np.atleast_2d(np.asarray(theta, dtype=float))[:1]
+    yv = np.asarray(y, dtype=float)
+    lv = np.asarray(load, dtype=float)
+    tv = np.broadcast_to(np.asarray(tau, dtype=float), yv.shape)
+    s2 = math.exp(2.0 * th[0, 4])
+    m, v = float(yv[0]), float(tv[0]) ** 2
+    out = np.empty(yv.size - 1)
+    for t in range(1, yv.size):
+        g, g1, _ = state_step(th, np.array([[m]]), lv[t : t + 1])
+        xbar, vbar = float(g[0, 0]), float(g1[0, 0]) ** 2 * v + s2
+        total = vbar + float(tv[t]) ** 2
+        out[t - 1] = (yv[t] - xbar) / math.sqrt(total)
+        gain = vbar / total
+        m, v = xbar + gain * (yv[t] - xbar), (1.0 - gain) * vbar
+    return out

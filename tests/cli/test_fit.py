@@ -36,7 +36,13 @@ def test_json_contract_on_the_demo_record() -> None:
     assert out.stderr == ""  # no progress lines with --json
     assert len(out.stdout.strip().splitlines()) == 1
     data = json.loads(out.stdout)
-    assert set(data) == {"params", "tipping_load", "recovery_load", "regime_probability", "warnings"}
+    assert set(data) == {
+        "params", "tipping_load", "recovery_load", "regime_probability", "warnings", "method", "error_model",
+        "parameter_draws",
+    }  # fmt: skip
+    assert data["method"] == "conditional_least_squares"  # annual means: the fast path by default
+    assert data["error_model"]["observation_sd_source"] == "not_modelled"
+    assert 0 < len(data["parameter_draws"]) <= 1000
     assert set(data["params"]) == {"loss_rate", "recycling_max", "recycling_half", "recycling_exponent"}
     assert all(isinstance(v, float) and v > 0 for v in data["params"].values())
     for key in ("tipping_load", "recovery_load"):
