@@ -117,7 +117,7 @@ def table(results: list[dict[str, tuple[bool, bool, float]]]) -> str:
         f"90% interval coverage of the true fold loads over {n} records (binomial SD at 90%: "
         f"{math.sqrt(0.09 / n):.1%})",
         "",
-        f"| records | old fit: tipping | old fit: recovery | new fit: tipping | new fit: recovery |",
+        "| records | old fit: tipping | old fit: recovery | new fit: tipping | new fit: recovery |",
         "|---|---|---|---|---|",
     ]
     for cond in CONDITIONS:

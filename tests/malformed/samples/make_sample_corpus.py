@@ -41,19 +41,20 @@ def main() -> None:
     r = list(good)
     r[5] = r[5].replace("2001-07-12", "2001-02-30")
     write("impossible_date.csv", r)
-    write("mixed_units.csv", ["date,site,tp_ug_l,tp_mg_l"] + [f"{x},{float(x.split(',')[-1]) / 1000:.4f}" for x in good[1:]])
-    write("every_value_censored.csv", [good[0]] + [",".join(x.split(",")[:2] + ["<5"]) for x in good[1:]])
+    mg = [f"{float(x.split(',')[-1]) / 1000:.4f}" for x in good[1:]]
+    write("mixed_units.csv", ["date,site,tp_ug_l,tp_mg_l"] + [f"{x},{v}" for x, v in zip(good[1:], mg, strict=True)])
+    write("every_value_censored.csv", [good[0]] + [",".join([*x.split(",")[:2], "<5"]) for x in good[1:]])
     write("one_sample_a_year.csv", [good[0]] + [f"{y}-07-15,North basin,{value(y, 7, 0)}" for y in YEARS])
     write("loads_missing_for_sampled_years.csv", good)
     r = list(good)
     r.insert(30, "2003-07-20,Nroth basin,31.5")
     write("site_with_a_single_sample.csv", r)
-    write("values_in_mg_per_l.csv", [good[0]] + [f"{x.rsplit(',', 1)[0]},{float(x.split(',')[-1]) / 1000:.4f}" for x in good[1:]])
+    in_mg = [f"{x.rsplit(',', 1)[0]},{v}" for x, v in zip(good[1:], mg, strict=True)]
+    write("values_in_mg_per_l.csv", [good[0], *in_mg])
     write("no_loads.csv", good)
     r = ["date,site,tp_ug_l,load_kg"]
-    for k, x in enumerate(good[1:]):
-        y = int(x[:4])
-        r.append(f"{x},{300 + y - 2001 if k % 10 else 300 + y - 2001}")
+    for x in good[1:]:
+        r.append(f"{x},{300 + int(x[:4]) - 2001}")
     r[25] = r[25].rsplit(",", 1)[0] + ",999"
     write("conflicting_loads_on_rows.csv", r)
     r = list(good)
