@@ -10,7 +10,8 @@ from typing import Any
 from dash import Dash, Input, Output, State, html, no_update
 from turnback.model.early_warning import early_warning
 from turnback.model.fit import fit_monitoring
-from turnback.model.io.monitoring_csv import MonitoringError, parse_monitoring
+from turnback.model.io.monitoring_csv import MonitoringError
+from turnback.model.io.sample_csv import read_record
 
 from ... import ids
 from ...background import ProgressReporter, SetProgress
@@ -22,7 +23,12 @@ from .fit import FIT_SEED, fit_summary, fit_to_stores, parse_replicates, parse_v
 
 
 def on_upload(contents: str | None, filename: str | None) -> tuple[Any, str]:
-    """Read an uploaded CSV; a bad file gets a message and the record on show stays."""
+    """Read an uploaded CSV in either format; a bad file gets a message and the record on show stays.
+
+    A sample file (a ``date`` column) needs its loads in a ``load_kg`` column
+    (each year's load on at least one of its rows); the annual means and their
+    standard errors follow the default rules of :mod:`turnback.model.sample_means`.
+    """
     if not contents:
         return no_update, ""
     name = filename or "the file"
@@ -32,7 +38,7 @@ def on_upload(contents: str | None, filename: str | None) -> tuple[Any, str]:
     except (ValueError, binascii.Error):
         return no_update, f"{name}: the upload could not be read; choose the file again."
     try:
-        series = parse_monitoring(raw)
+        series = read_record(raw)
     except MonitoringError as exc:
         return no_update, f"{name} was not loaded, and the record on show is unchanged. {exc}"
     return record_to_store(series, name), ""
@@ -41,11 +47,21 @@ def on_upload(contents: str | None, filename: str | None) -> tuple[Any, str]:
 def record_summary(record: Mapping[str, Any]) -> str:
     n = len(record["year"])
     extra = [c for c in ("secchi_m", "chl_ug_l") if record.get(c) is not None]
+    samples = ""
+    if record.get("n_samples"):
+        few = [str(y) for y, f in zip(record["year"], record.get("few_samples") or [], strict=False) if f]
+        samples = (
+            f" Annual means of {sum(record['n_samples']):,} site visits in the growing season (May–October), with "
+            "their standard errors as error bars"
+            + (f"; fewer than 4 samples in {', '.join(few)} (flagged, wider bars)" if few else "")
+            + "."
+        )
     return (
         f"On show: {record['name']}, {n} years ({record['year'][0]}–{record['year'][-1]}), "
         f"TP {min(record['tp_ug_l']):.0f}–{max(record['tp_ug_l']):.0f} µg/L, "
         f"load {min(record['load_kg']):.0f}–{max(record['load_kg']):.0f} kg/yr"
         + (f"; also {', '.join(extra)}." if extra else ".")
+        + samples
     )
 
 

@@ -66,11 +66,16 @@ def fit_summary(fit: dict[str, Any]) -> html.Div:
         ],
     ]
     probs = fit["regime_probability"]
+    how = (
+        f"the fit with observation error (from the samples' standard errors) and {fit['replicates']} posterior draws"
+        if fit.get("method") == "state_space_laplace"
+        else f"{fit['replicates']} bootstrap replicates"
+    )
     prob_text = ", ".join(f"{k} {100 * v:.0f}%" for k, v in sorted(probs.items(), key=lambda kv: -kv[1]))
     return html.Div(
         [
             html.Div(
-                f"Fitted to {fit['record_name']} with {fit['replicates']} bootstrap replicates.",
+                f"Fitted to {fit['record_name']} with {how}.",
                 className="readout-row",
             ),
             html.Table(rows),
@@ -78,7 +83,11 @@ def fit_summary(fit: dict[str, Any]) -> html.Div:
             html.Div(_band_text("Recovery load", fit["recovery"]), className="readout-row", id=ids.FIT_RECOVERY),
             html.Div(f"Regime: {prob_text}.", className="readout-row", id=ids.FIT_REGIME),
             *[html.Div(w, className="readout-row readout-warning") for w in fit["warnings"]],
-            html.Div("The fitted lake is now the current lake: see 'The lake now'.", className="hint"),
+            html.Div(
+                "The fitted lake is now the current lake: see 'The lake now'. Plans built for it use the fit's "
+                "possible lakes too (see 'Plans compared').",
+                className="hint",
+            ),
         ]
     )
 
@@ -116,5 +125,6 @@ def fit_to_stores(
         "replicates": result.replicates,
         "cloud": cloud.tolist(),
         "observed": {"year": record["year"], "load": record["load_kg"], "tp": record["tp_ug_l"]},
+        "method": d["method"],
     }
     return new_lake, fit

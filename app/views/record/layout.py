@@ -12,8 +12,11 @@ from ...theme import graph_config
 
 FORMAT_HINT = (
     "CSV with one row a year: year, load_kg (external TP load that year, kg), tp_ug_l (lake mean TP, µg/L); "
-    "optionally secchi_m and chl_ug_l. At least 10 consecutive years. The invented record of the demo lake is "
-    "loaded to start with."
+    "optionally secchi_m and chl_ug_l. At least 10 consecutive years. Or one row per water sample: date "
+    "(YYYY-MM-DD), tp_ug_l or tp_mg_l (<X below the detection limit X), optionally site and depth_m, and "
+    "load_kg with each year's load on at least one of its rows; the view makes growing-season (May–October) "
+    "means with standard errors and the fit then allows for sampling error. The invented record of the demo lake "
+    "is loaded to start with."
 )
 
 _LIMIT: dict[str, Any] = {"data-max-bytes": str(MAX_UPLOAD_BYTES)}  # read by assets/upload-limit.js
