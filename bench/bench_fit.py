@@ -83,14 +83,15 @@ def peer(states: np.ndarray, load: np.ndarray, p_scale: np.ndarray) -> tuple[flo
     return time.perf_counter() - t0, sse
 
 
-def observation_error_times(runs: int = 3, draws: int = REPLICATES) -> dict[str, float]:
+def observation_error_times(runs: int = 3, draws: int = REPLICATES, warm_up: bool = True) -> dict[str, float]:
     """Median seconds of the old fit and of the new one (from samples, and from annual means) on 45 years."""
     samples = read_record(DATA / "amberlin_samples.csv", DATA / "amberlin_loads.csv")
     p = samples.p_kg(DEMO_PROFILE.volume_m3)
     load = np.asarray(samples.load_kg_per_yr)
     annual = parse_monitoring(DEMO_CSV).p_kg(DEMO_PROFILE.volume_m3)
     out: dict[str, list[float]] = {"old": [], "new, SE from samples": [], "new, SE estimated": []}
-    fit_lake(p, load, replicates=200, rng=0, method="observation_error", se_log=samples.se_log)  # warm-up
+    if warm_up:
+        fit_lake(p, load, replicates=200, rng=0, method="observation_error", se_log=samples.se_log)
     for k in range(runs):
         for name, kw, pk in (
             ("old", {}, annual),
