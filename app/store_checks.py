@@ -214,6 +214,12 @@ def check_record(v: Any) -> None:
     for key in ("secchi_m", "chl_ug_l"):
         if d.get(key) is not None:
             _numbers(d[key], f"a record's {key}", n, 0.0, 1e6, allow_none=True)
+    if d.get("tp_se_ug_l") is not None:  # a record read from a sample file
+        _numbers(d["tp_se_ug_l"], "a record's standard errors", n, 1e-12, 1e6)
+        _numbers(d.get("n_samples"), "a record's sample counts", n, 1, 1e7)
+        if not isinstance(d.get("few_samples"), list) or not all(isinstance(x, bool) for x in d["few_samples"]):
+            raise _bad("a monitoring record", "malformed flags of years with few samples")
+        _list(d["few_samples"], "a monitoring record", n, min_len=n)
 
 
 def check_fit(v: Any) -> None:

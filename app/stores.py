@@ -73,7 +73,11 @@ class HistoryStore(TypedDict):
 
 
 class RecordStore(TypedDict):
-    """``RECORD_STORE``: the monitoring series on show (None where a cell was empty)."""
+    """``RECORD_STORE``: the monitoring series on show (None where a cell was empty).
+
+    A record read from a sample file also keeps each annual mean's standard
+    error, its number of samples and whether it was flagged for too few.
+    """
 
     name: str
     year: list[int]
@@ -81,6 +85,9 @@ class RecordStore(TypedDict):
     tp_ug_l: list[float]
     secchi_m: list[float | None] | None
     chl_ug_l: list[float | None] | None
+    tp_se_ug_l: NotRequired[list[float]]
+    n_samples: NotRequired[list[int]]
+    few_samples: NotRequired[list[bool]]
 
 
 class Band(TypedDict):
@@ -108,13 +115,14 @@ class FitStore(TypedDict):
     regime_probability: dict[str, float]
     warnings: list[str]
     replicates: int
-    cloud: list[list[float]]  # bootstrap lakes (rows of s, r, m, q) for the regime map
+    cloud: list[list[float]]  # bootstrap or posterior lakes (rows of s, r, m, q): regime map, plans' draws
     observed: Observed
     proposal: NotRequired[dict[str, Any]]  # the fitted lake (a LakeStore), put in use only by "Use this fitted lake"
     side: NotRequired[str]  # which states the record shows: "both", "clear" or "turbid"
     plausible: NotRequired[list[float]]  # the range the bands are clipped to [kg yr⁻¹]
     known: NotRequired[list[str]]  # what a one-state record does say about the threshold it cannot place
     trust: NotRequired[dict[str, Any]]  # model.fit_trust.FitTrust: level, checks, start
+    method: NotRequired[str]  # "conditional_least_squares" or "state_space_laplace"
 
 
 class PlanStore(TypedDict):
@@ -221,7 +229,7 @@ def _lake_numbers(lake: Mapping[str, Any]) -> dict[str, float]:
             "mean_depth_m": profile.mean_depth_m,
             "load_kg_yr": profile.load_kg_per_yr,
         }
-    return {k: float(v) for k, v in lake.items() if k != "name"}  # a ScenarioLake.to_dict()
+    return {k: float(v) for k, v in lake.items() if k not in ("name", "parameter_draws")}  # a ScenarioLake.to_dict()
 
 
 def same_lake(a: Mapping[str, Any], b: Mapping[str, Any]) -> bool:
@@ -233,6 +241,8 @@ def same_lake(a: Mapping[str, Any], b: Mapping[str, Any]) -> bool:
     rounds them: the settings fields show six significant digits, so a lake
     read back from them differs from the stored one by up to 5e-6 relative.
     """
+    if a.get("parameter_draws") != b.get("parameter_draws"):  # a plan's lakes: the same draws, or none
+        return False
     xa, xb = _lake_numbers(a), _lake_numbers(b)
     if set(xa) != set(xb):
         return False
@@ -294,7 +304,7 @@ def record_to_store(series: MonitoringSeries, name: str) -> RecordStore:
             return None
         return [None if not math.isfinite(v) else float(v) for v in np.asarray(a, dtype=float)]
 
-    return {
+    out: RecordStore = {
         "name": name,
         "year": [int(y) for y in series.years],
         "load_kg": [float(v) for v in series.load_kg_per_yr],
@@ -302,6 +312,11 @@ def record_to_store(series: MonitoringSeries, name: str) -> RecordStore:
         "secchi_m": col(series.secchi_m),
         "chl_ug_l": col(series.chl_ug_l),
     }
+    if series.tp_se_ug_l is not None and series.n_samples is not None and series.few_samples is not None:
+        out["tp_se_ug_l"] = [float(v) for v in series.tp_se_ug_l]
+        out["n_samples"] = [int(v) for v in series.n_samples]
+        out["few_samples"] = [bool(v) for v in series.few_samples]
+    return out
 
 
 def series_from_store(record: Mapping[str, Any]) -> MonitoringSeries:
@@ -315,6 +330,9 @@ def series_from_store(record: Mapping[str, Any]) -> MonitoringSeries:
         tp_ug_l=np.asarray(record["tp_ug_l"], dtype=float),
         secchi_m=arr("secchi_m"),
         chl_ug_l=arr("chl_ug_l"),
+        tp_se_ug_l=arr("tp_se_ug_l"),
+        n_samples=None if record.get("n_samples") is None else np.asarray(record["n_samples"], dtype=np.int64),
+        few_samples=None if record.get("few_samples") is None else np.asarray(record["few_samples"], dtype=bool),
     )
 
 

@@ -16,6 +16,13 @@ once.  Both use the same replicate records, so the script also reports how
 far the two sets of refits differ.
 
 Prints both times and their ratio.  Not a CI gate; never asserts a time.
+
+The observation-error fit (state-space likelihood by the Laplace
+approximation, 1000 posterior draws) is timed on the whole 45-year record,
+from the invented sample file (observation SD from the samples) and from the
+annual means (observation SD estimated), and printed as a ratio against the
+old fit (conditional least squares and 1000 bootstrap replicates) on the same
+45 years in the same run.
 Run: ``.venv/bin/python -m bench.bench_fit``.
 """
 
@@ -33,8 +40,10 @@ from turnback.model.demo import DEMO_PROFILE
 from turnback.model.equilibrium import folds
 from turnback.model.fit import PointFit, fit_lake, fit_transitions, refit_batch
 from turnback.model.io.monitoring_csv import parse_monitoring
+from turnback.model.io.sample_csv import read_record
 
-DEMO_CSV = Path(__file__).resolve().parent.parent / "sample_data" / "amberlin_monitoring.csv"
+DATA = Path(__file__).resolve().parent.parent / "sample_data"
+DEMO_CSV = DATA / "amberlin_monitoring.csv"
 REPLICATES = 1000
 PEER_REPLICATES = 60
 YEARS = 40
@@ -74,7 +83,33 @@ def peer(states: np.ndarray, load: np.ndarray, p_scale: np.ndarray) -> tuple[flo
     return time.perf_counter() - t0, sse
 
 
+def observation_error_times(runs: int = 3, draws: int = REPLICATES, warm_up: bool = True) -> dict[str, float]:
+    """Median seconds of the old fit and of the new one (from samples, and from annual means) on 45 years."""
+    samples = read_record(DATA / "amberlin_samples.csv", DATA / "amberlin_loads.csv")
+    p = samples.p_kg(DEMO_PROFILE.volume_m3)
+    load = np.asarray(samples.load_kg_per_yr)
+    annual = parse_monitoring(DEMO_CSV).p_kg(DEMO_PROFILE.volume_m3)
+    out: dict[str, list[float]] = {"old": [], "new, SE from samples": [], "new, SE estimated": []}
+    if warm_up:
+        fit_lake(p, load, replicates=200, rng=0, method="observation_error", se_log=samples.se_log)
+    for k in range(runs):
+        for name, kw, pk in (
+            ("old", {}, annual),
+            ("new, SE from samples", {"method": "observation_error", "se_log": samples.se_log}, p),
+            ("new, SE estimated", {"method": "observation_error"}, annual),
+        ):
+            t0 = time.perf_counter()
+            fit_lake(pk, load, replicates=draws, rng=k, **kw)  # type: ignore[arg-type]
+            out[name].append(time.perf_counter() - t0)
+    return {k: statistics.median(v) for k, v in out.items()}
+
+
 def main() -> None:
+    times = observation_error_times()
+    print(f"Fit with 1000 draws on the 45-year Lake Amberlin demo record ({os.cpu_count()} cores), median of 3 runs")
+    for name, t in times.items():
+        print(f"  {name:<22} {t:6.2f} s   ratio to the old fit {t / times['old']:5.1f}x")
+    print()
     p, load = record()
     # warm-up, then the median of three full runs
     fit_lake(p, load, replicates=200, rng=0)

@@ -45,7 +45,9 @@ class BootstrapDraws:
     ``params`` has columns ``(s, r, m, q)``; ``tipping``/``recovery`` are
     the fold loads [kg yr⁻¹] and ``tipping_p``/``recovery_p`` the fold lake
     P [kg], ``nan`` for a replicate without folds; ``used`` is False for a refit
-    that did not converge (left out of every summary).
+    that did not converge (left out of every summary).  The observation-error
+    fit (:mod:`turnback.model.obs_fit`) hands its posterior draws over in the
+    same form, with ``scheme = "posterior"``.
     """
 
     params: NDArray[np.float64]
@@ -56,7 +58,7 @@ class BootstrapDraws:
     tipping_p: NDArray[np.float64]
     recovery_p: NDArray[np.float64]
     regime: NDArray[np.str_]
-    scheme: Scheme
+    scheme: Scheme | Literal["posterior"]
 
     @property
     def n(self) -> int:

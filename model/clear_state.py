@@ -22,6 +22,12 @@ Recovery time
     ``k = 3``), all within the horizon; members that never do are "not
     recovered".
 
+Parameter draws
+    A one-box lake with ``parameter_draws`` judges each member by its own
+    lake (:func:`draw_thresholds_by_year`): its own separatrix or tipping
+    fold; a drawn lake without folds takes the plan lake's threshold.  A
+    fixed TP is the same for every member.
+
 Two-pool lakes
     The same rules act on the *water* P, the P that monitoring sees, with
     the folds and the saddle of the two-pool curve
@@ -51,10 +57,17 @@ from numpy.typing import NDArray
 
 from .equilibrium import Fold
 from .lake_models import AnyLakeParameters, lake_equilibria, lake_folds
+from .parameter_draws import DrawFolds, ParameterDraws
 from .plan import NO_FOLDS, Scenario, ScenarioLake
 from .validation import FieldError
 
-__all__ = ["clear_threshold_kg", "recovery_years", "scenario_clear_below_kg", "thresholds_by_year"]
+__all__ = [
+    "clear_threshold_kg",
+    "draw_thresholds_by_year",
+    "recovery_years",
+    "scenario_clear_below_kg",
+    "thresholds_by_year",
+]
 
 
 def scenario_clear_below_kg(lake: ScenarioLake, scenario: Scenario) -> float | None:
@@ -126,6 +139,34 @@ def thresholds_by_year(
         if key not in cache:
             cache[key] = clear_threshold_kg(params, key, clear_below_kg=clear_below_kg, fs=fs)
         out[i] = cache[key]
+    return out
+
+
+def draw_thresholds_by_year(
+    draws: ParameterDraws,
+    scenario: Scenario,
+    nominal_kg: NDArray[np.float64],
+    fd: DrawFolds | None = None,
+) -> NDArray[np.float64]:
+    """Clear threshold [kg] of each parameter draw in years 0 … T, shape (n, T + 1).
+
+    ``nominal_kg`` (T + 1,) is the plan lake's own threshold
+    (:func:`thresholds_by_year`): the threshold of a fixed TP, and of any draw
+    without folds.
+    """
+    rule = scenario.clear_threshold
+    n = draws.n
+    if not isinstance(rule, str):
+        return np.broadcast_to(nominal_kg, (n, nominal_kg.size))
+    fd = fd or draws.folds()
+    if rule == "tipping_fold":
+        per = np.broadcast_to(fd.tipping_p[:, None], (n, nominal_kg.size))
+    else:
+        loads = scenario.loads()
+        year_loads = np.concatenate([loads[:1], loads])
+        uniq, inv = np.unique(year_loads, return_inverse=True)
+        per = draws.separatrix_kg(uniq, fd)[:, inv]
+    out: NDArray[np.float64] = np.where(np.isfinite(per), per, nominal_kg[None, :])
     return out
 
 

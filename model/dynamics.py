@@ -38,6 +38,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from .parameter_draws import ParameterDraws
 from .params import LakeParameters, recycling_fraction
 from .two_pool import TwoPoolParameters, map_limits_message
 
@@ -79,7 +80,7 @@ class Trajectory:
 
 
 def simulate(
-    params: LakeParameters | TwoPoolParameters,
+    params: LakeParameters | TwoPoolParameters | ParameterDraws,
     p0: ArrayLike,
     loads: ArrayLike,
     *,
@@ -93,10 +94,13 @@ def simulate(
 
     Parameters
     ----------
-    params : LakeParameters or TwoPoolParameters
+    params : LakeParameters or TwoPoolParameters or ParameterDraws
         One-box: ``loss_rate`` must be below 2 yr⁻¹ for the annual step to
         keep the stability of the differential equation.  Two-pool:
-        ``s + h <= 1`` and ``b + r <= 1`` [yr⁻¹].
+        ``s + h <= 1`` and ``b + r <= 1`` [yr⁻¹].  A
+        :class:`~turnback.model.parameter_draws.ParameterDraws` gives each
+        path of a one-dimensional batch its own one-box lake (one set per
+        path: ``loads`` of shape (n, T) for ``n`` sets).
     p0 : array_like
         Starting lake (water) P [kg]; broadcasts against ``loads[..., 0]``.
     loads : array_like, shape (..., T)
@@ -121,6 +125,8 @@ def simulate(
         return _simulate_two_pool(params, p0, loads, recycling_scale, removal, process_noise, m0, sediment_removal)
     if m0 is not None or sediment_removal is not None:
         raise ValueError("m0 and sediment_removal belong to the two-pool lake; this lake is one-box")
+    if isinstance(params, ParameterDraws):
+        return _simulate_draws(params, p0, loads, recycling_scale, removal, process_noise)
     if params.s >= MAX_LOSS_RATE:
         raise ValueError(f"loss_rate must be below {MAX_LOSS_RATE:g} yr⁻¹ for the annual model; got {params.s:g}")
     load_arr = np.asarray(loads, dtype=float)
@@ -162,6 +168,47 @@ def simulate(
         np.maximum(nxt, 0.0, out=p)
         out_t[t + 1] = p
     return Trajectory(p=out, load=load_arr)
+
+
+def _simulate_draws(
+    draws: ParameterDraws,
+    p0: ArrayLike,
+    loads: ArrayLike,
+    recycling_scale: ArrayLike | None,
+    removal: ArrayLike | None,
+    process_noise: ArrayLike | None,
+) -> Trajectory:
+    """The one-box map with one parameter set per path (loads (n, T)); same storage and rules as :func:`simulate`."""
+    load_arr = np.asarray(loads, dtype=float)
+    if load_arr.ndim != 2 or load_arr.shape[0] != draws.n:
+        raise ValueError(f"with {draws.n} parameter sets the loads must have shape ({draws.n}, years)")
+    n, n_years = load_arr.shape
+
+    def per_year(a: ArrayLike | None) -> NDArray[np.float64] | None:
+        if a is None:
+            return None
+        return np.moveaxis(np.broadcast_to(np.asarray(a, dtype=float), (n, n_years)), -1, 0)
+
+    scale_t, rem_t, noise_t = per_year(recycling_scale), per_year(removal), per_year(process_noise)
+    out_t = np.empty((n_years + 1, n))
+    p = np.array(np.broadcast_to(np.asarray(p0, dtype=float), (n,)), dtype=float)
+    out_t[0] = p
+    loads_t = np.ascontiguousarray(load_arr.T)
+    keep, r, m, q = 1.0 - draws.s, draws.r, draws.m, draws.q
+    cap = 10.0 ** (300.0 / q)
+    for t in range(n_years):
+        if rem_t is not None:
+            np.maximum(p - rem_t[t], 0.0, out=p)
+        y = np.power(np.minimum(p / m, cap), q)
+        h = y / (1.0 + y)
+        if scale_t is not None:
+            h *= scale_t[t]
+        nxt = p * keep + loads_t[t] + r * h
+        if noise_t is not None:
+            nxt += noise_t[t]
+        np.maximum(nxt, 0.0, out=p)
+        out_t[t + 1] = p
+    return Trajectory(p=out_t.T, load=load_arr)
 
 
 def _simulate_two_pool(

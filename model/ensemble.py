@@ -16,6 +16,12 @@ lake P ``P`` [kg], scheduled load ``L_t`` [kg yr⁻¹], in-lake removal ``R_t``
 process noise ``σ_P η_t`` of :mod:`turnback.model.variability`, and lake P
 kept at or above zero.  Year numbering is that of :mod:`turnback.model.plan`.
 
+Parameter draws
+    A one-box lake with ``parameter_draws`` (:mod:`turnback.model.parameter_draws`)
+    runs member ``i`` with parameter set ``i mod n``, and judges it by that
+    set's own clear threshold; members draw the same random numbers as
+    without draws, so the two are compared on common random numbers.
+
 Simulating (:func:`simulate_members`) is kept apart from summarising
 (:func:`turnback.model.outcomes.summarise`).
 """
@@ -25,7 +31,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from .clear_state import scenario_clear_below_kg, thresholds_by_year
+from .clear_state import draw_thresholds_by_year, scenario_clear_below_kg, thresholds_by_year
 from .dynamics import simulate
 from .equilibrium import regime_from_folds
 from .lake_models import lake_folds
@@ -82,6 +88,25 @@ def simulate_pools(
     m0 = lake.initial_m_kg
     dredge = None if m0 is None else scenario.sediment_removal_by_year()
     check_cancel(cancel)
+    draws = lake.parameter_draws
+    if draws is not None:
+        P_d = np.empty((M, T + 1))
+        for start in range(0, M, CHUNK_MEMBERS):
+            check_cancel(cancel)
+            c = min(CHUNK_MEMBERS, M - start)
+            z = gen.standard_normal((c, n_src, T)) if n_src else np.empty((c, 0, T))
+            yearly, noise = varied(loads, z, cv, sd)
+            traj = simulate(
+                draws.take(draws.member_draw(start, start + c)),
+                p0,
+                yearly,
+                recycling_scale=scale,
+                removal=removal,
+                process_noise=noise,
+            )
+            P_d[start : start + c] = traj.p
+            report(progress, (start + c) / M, f"{start + c:,} of {M:,} members")
+        return P_d, None
     if n_src == 0:
         one = simulate(
             params, p0, loads[None, :], recycling_scale=scale, removal=removal, m0=m0, sediment_removal=dredge
@@ -147,6 +172,11 @@ def run_scenario(
     has_prec = with_precaution and scenario.precaution is not None
     share = 0.6 if has_prec else 1.0
     thr = thresholds_by_year(lake.params, scenario.loads(), scenario_clear_below_kg(lake, scenario))
+    draws = lake.parameter_draws
+    member_thr = member_draw = None
+    if draws is not None:
+        member_draw = draws.member_draw(0, scenario.members)
+        member_thr = draw_thresholds_by_year(draws, scenario, thr)[member_draw]
     P, S = simulate_pools(
         lake, scenario, gen, progress=scaled(progress, 0.0, share, f"{scenario.name}: "), cancel=cancel
     )
@@ -160,7 +190,7 @@ def run_scenario(
             cancel=cancel,
         )
     report(progress, 1.0, f"{scenario.name}: done")
-    identical = n_sources(scenario.variability_cv, scenario.process_noise_sd_kg) == 0
+    identical = draws is None and n_sources(scenario.variability_cv, scenario.process_noise_sd_kg) == 0
     return summarise(
         lake,
         scenario,
@@ -170,6 +200,8 @@ def run_scenario(
         sample_paths=sample_paths,
         precaution=precaution,
         sediment_kg=S,
+        member_threshold_kg=member_thr,
+        member_draw=member_draw,
     )
 
 

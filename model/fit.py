@@ -87,6 +87,18 @@ bootstrap bands.  Every band is clipped to the plausible range
 ``[-2 L_max, 5 L_max]`` (``L_max`` the largest load in the record); a
 clipped band sets ``clipped``, withholds the estimate and adds a warning.
 
+Observation error
+-----------------
+``method="observation_error"`` fits the state-space model of
+:mod:`turnback.model.state_space` instead: the observed annual log-mean is
+the true state plus Gaussian observation error, with its SD from the
+samples' standard errors (``se_log``) or estimated; the likelihood
+integrates the true states out by the Laplace approximation, the estimate
+is its maximum and the bands come from posterior draws
+(:mod:`turnback.model.obs_fit`).  Conditional least squares stays the fast
+path (``method="least_squares"``); :attr:`FitResult.method` says which a
+fit used.
+
 References
 ----------
 Carpenter, S. R., Ludwig, D. & Brock, W. A. (1999). Management of
@@ -111,19 +123,23 @@ from .bootstrap import DEFAULT_REPLICATES, MIN_REPLICATES, BootstrapDraws, Schem
 from .equilibrium import Regime, folds, regime_from_folds
 from .fit_warnings import FitFacts, fit_warnings
 from .fold_bands import MIN_FOLD_REPLICATES, RegimeProbability, ThresholdBand, regime_probability, threshold_band
+from .obs_fit import ObservationErrorFit, fit_observation_error, folds_of_draws
 from .params import LakeParameters
 from .point_fit import FitBounds, ParameterEstimate, PointFit, ResidualDiagnostics, as_1d, fit_transitions, refit_batch
-from .progress import Progress
+from .progress import Cancel, Progress
 from .record import MonitoringSeries
 from .validation import FieldError
 
 __all__ = [
     "DEFAULT_REPLICATES",
+    "MAX_PARAMETER_DRAWS",
+    "METHODS",
     "MIN_BRANCH_YEARS",
     "MIN_REPLICATES",
     "BootstrapDraws",
     "FitBounds",
     "FitResult",
+    "Method",
     "ParameterEstimate",
     "PointFit",
     "RegimeProbability",
@@ -142,6 +158,18 @@ __all__ = [
 MIN_BRANCH_YEARS = 3
 
 Side = Literal["both", "clear", "turbid"]
+Method = Literal["least_squares", "observation_error"]
+METHODS: tuple[Method, ...] = ("least_squares", "observation_error")
+#: What ``to_dict()["method"]`` calls each method.
+METHOD_KEYS = {"least_squares": "conditional_least_squares", "observation_error": "state_space_laplace"}
+#: Most parameter sets ``to_dict()`` hands over for plans.
+MAX_PARAMETER_DRAWS = 1000
+_POSTERIOR_WORDS = (
+    ("bootstrap refits", "posterior draws"),
+    ("bootstrap replicates", "posterior draws"),
+    ("bootstrap band", "posterior band"),
+    ("refits did not converge", "draws could not be used"),
+)
 
 
 @dataclass(frozen=True, eq=False)
@@ -171,6 +199,33 @@ class FitResult:
     volume_m3: float | None = None
     years: tuple[int, int] | None = None
     side: Side = "both"
+    method: Method = "least_squares"
+    observation: ObservationErrorFit | None = None
+
+    @property
+    def process_sd(self) -> float:
+        """Process-error SD on the log scale [–]: the residual SD, or ``σ̂`` of the observation-error fit."""
+        if self.observation is not None:
+            return self.observation.process_sd
+        return self.point.diagnostics.sd if self.point.diagnostics is not None else math.nan
+
+    def parameter_draws(self, limit: int = MAX_PARAMETER_DRAWS) -> list[dict[str, float]]:
+        """The bootstrap refits or posterior draws (at most ``limit``) as parameter objects for a plan."""
+        rows = self.draws.params[self.draws.used][:limit]
+        return [
+            dict(
+                zip(("loss_rate", "recycling_max", "recycling_half", "recycling_exponent"), map(float, r), strict=True)
+            )
+            for r in rows
+        ]
+
+    def error_model(self) -> dict[str, Any]:
+        """``{"process_sd", "observation_sd", "observation_sd_source"}``: the error model as fitted."""
+        obs = self.observation
+        if obs is None:
+            return {"process_sd": self.process_sd, "observation_sd": None, "observation_sd_source": "not_modelled"}
+        value = obs.observation_sd if obs.observation_sd is not None else float(np.median(obs.tau))
+        return {"process_sd": obs.process_sd, "observation_sd": value, "observation_sd_source": obs.tau_source}
 
     def to_dict(self) -> dict[str, Any]:
         """The ``turnback fit --json`` object (units kg and yr)."""
@@ -180,6 +235,9 @@ class FitResult:
             "recovery_load": self.recovery_load.to_dict(),
             "regime_probability": self.regime_probability.to_dict(),
             "warnings": list(self.warnings),
+            "method": METHOD_KEYS[self.method],
+            "error_model": self.error_model(),
+            "parameter_draws": self.parameter_draws(),
         }
 
 
@@ -226,6 +284,9 @@ def fit_lake(
     bounds: FitBounds | None = None,
     n_starts: int = 8,
     years: tuple[int, int] | None = None,
+    method: Method = "least_squares",
+    se_log: ArrayLike | None = None,
+    cancel: Cancel | None = None,
 ) -> FitResult:
     """Fit the annual map to a record of lake P and load, with bootstrap bands on the folds.
 
@@ -255,6 +316,15 @@ def fit_lake(
         Starting points of the point fit.
     years : tuple of int, optional
         First and last calendar year, carried into the result.
+    method : {"least_squares", "observation_error"}
+        Conditional least squares with a residual bootstrap (the fast path),
+        or the state-space fit with observation error and ``replicates``
+        posterior draws (module docstring).
+    se_log : array_like, optional
+        With ``method="observation_error"``: the standard error of each
+        observed log annual mean [–]; None estimates one observation SD.
+    cancel : callable() -> bool, optional
+        Checked by the observation-error fit between sampler steps.
 
     Returns
     -------
@@ -285,11 +355,25 @@ def fit_lake(
         raise FieldError(("level",), "must be in [0.5, 1), e.g. 0.9")
     if replicates < MIN_REPLICATES:
         raise FieldError(("replicates",), f"must be at least {MIN_REPLICATES} (1000 recommended)")
+    if method not in METHODS:
+        raise FieldError(("method",), f"must be one of {', '.join(METHODS)}; got {method!r}")
+    if se_log is not None and method != "observation_error":
+        raise FieldError(("se_log",), "is used only by the observation-error fit (method='observation_error')")
     gen = np.random.default_rng(rng)
-    point = fit_transitions(p[:-1], lt[1:], p[1:], bounds=bounds, p_scale=p, n_starts=n_starts, rng=gen)
-    if point.status != "ok" or point.params is None:
-        raise ValueError(f"the model could not be fitted to this record: {point.message}")
-    draws = bootstrap_refits(point, p, lt[1:], replicates=replicates, scheme=scheme, rng=gen, progress=progress)
+    observation = None
+    if method == "observation_error":
+        observation = fit_observation_error(
+            p, lt, se_log=se_log, bounds=bounds, draws=replicates, rng=gen, progress=progress, cancel=cancel,
+            n_starts=n_starts,
+        )  # fmt: skip
+        point = observation.point
+        draws = _posterior_draws(observation)
+    else:
+        point = fit_transitions(p[:-1], lt[1:], p[1:], bounds=bounds, p_scale=p, n_starts=n_starts, rng=gen)
+        if point.status != "ok" or point.params is None:
+            raise ValueError(f"the model could not be fitted to this record: {point.message}")
+        draws = bootstrap_refits(point, p, lt[1:], replicates=replicates, scheme=scheme, rng=gen, progress=progress)
+    assert point.params is not None
     params = point.params
     fs = folds(params)
     used = draws.used
@@ -318,6 +402,8 @@ def fit_lake(
         regime_probability=regime_probability(draws),
     )
     warnings = fit_warnings(facts)
+    if method == "observation_error":
+        warnings = tuple(_posterior_words(w) for w in warnings)
     point_regime: Regime = regime_from_folds(fs)
     pct = f"{level:.0%}"
     message = (
@@ -342,7 +428,34 @@ def fit_lake(
         volume_m3=volume_m3,
         years=years,
         side=side,
+        method=method,
+        observation=observation,
     )
+
+
+def _posterior_draws(obs: ObservationErrorFit) -> BootstrapDraws:
+    """The posterior draws in the form of the bootstrap's refits (every draw used)."""
+    params = obs.draw_params
+    fd = folds_of_draws(params)
+    k = params.shape[0]
+    return BootstrapDraws(
+        params=params,
+        sse=np.zeros(k),
+        used=np.ones(k, dtype=bool),
+        tipping=fd.tipping,
+        recovery=fd.recovery,
+        tipping_p=fd.tipping_p,
+        recovery_p=fd.recovery_p,
+        regime=fd.regime,
+        scheme="posterior",
+    )
+
+
+def _posterior_words(text: str) -> str:
+    """A caveat written for bootstrap refits, said of posterior draws."""
+    for old, new in _POSTERIOR_WORDS:
+        text = text.replace(old, new)
+    return text
 
 
 def fit_monitoring(
@@ -356,13 +469,20 @@ def fit_monitoring(
     progress: Progress | None = None,
     bounds: FitBounds | None = None,
     n_starts: int = 8,
+    method: Method | None = None,
+    cancel: Cancel | None = None,
 ) -> FitResult:
     """Fit a checked monitoring record (:func:`turnback.model.io.monitoring_csv.parse_monitoring`).
 
     Lake P is ``P = TP · V / 10⁶`` [kg] with ``TP`` [µg L⁻¹] and the lake
-    volume ``V`` [m³]; everything else as :func:`fit_lake`.  Pure function:
-    the series is not changed.
+    volume ``V`` [m³]; everything else as :func:`fit_lake`.  ``method``
+    None chooses the observation-error fit for a record built from samples
+    (its standard errors give the observation error) and conditional least
+    squares for annual means.  Pure function: the series is not changed.
     """
+    if method is None:
+        method = "observation_error" if series.from_samples else "least_squares"
+    se_log = series.se_log if method == "observation_error" else None
     p = series.p_kg(volume_m3)
     return fit_lake(
         p,
@@ -376,4 +496,7 @@ def fit_monitoring(
         bounds=bounds,
         n_starts=n_starts,
         years=(int(series.years[0]), int(series.years[-1])),
+        method=method,
+        se_log=se_log,
+        cancel=cancel,
     )

@@ -9,6 +9,15 @@ Flip to turbid
     (first passage out of the clear state).  Undefined (``None``) when no
     member starts clear.
 
+Parameter draws
+    With a lake's ``parameter_draws`` each member is judged by its own
+    lake's threshold, and the flip probability of each draw (over the
+    members that run it and start clear) is summarised as
+    :class:`FlipSpread`: how far the chance of flipping depends on what the
+    record leaves unknown.  Each draw's share rests on its own members
+    (about ``members / draws`` of them), so with few members per draw the
+    spread also holds their Monte-Carlo noise; ``binomial_sd`` says how much.
+
 Recovery
     The first year a member is clear and stays clear for
     ``recovery_stay_years`` years (:func:`turnback.model.clear_state.recovery_years`).
@@ -28,7 +37,83 @@ from .clear_state import recovery_years
 from .plan import Plan, Scenario, ScenarioLake
 from .precaution import PrecautionResult
 
-__all__ = ["Comparison", "ScenarioResult", "summarise"]
+__all__ = ["Comparison", "FlipSpread", "ScenarioResult", "flip_spread", "summarise"]
+
+
+@dataclass(frozen=True)
+class FlipSpread:
+    """The flip probability of each parameter draw, summarised across draws [–].
+
+    Attributes
+    ----------
+    draws : int
+        Draws with at least one member that starts clear.
+    members_per_draw_min, members_per_draw_max : int
+        Members behind each draw's share.
+    mean, sd, p05, p50, p95, min, max : float
+        Of the per-draw flip probabilities (``sd`` between draws).
+    binomial_sd : float
+        Typical Monte-Carlo SD of one draw's share, ``sqrt(p̄ (1 - p̄) / k)``
+        with ``k`` the median members per draw: the part of ``sd`` that is
+        noise rather than parameter uncertainty.
+    """
+
+    draws: int
+    members_per_draw_min: int
+    members_per_draw_max: int
+    mean: float
+    sd: float
+    p05: float
+    p50: float
+    p95: float
+    min: float
+    max: float
+    binomial_sd: float
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "draws": self.draws,
+            "members_per_draw": [self.members_per_draw_min, self.members_per_draw_max],
+            "mean": self.mean,
+            "sd": self.sd,
+            "p05": self.p05,
+            "p50": self.p50,
+            "p95": self.p95,
+            "min": self.min,
+            "max": self.max,
+            "binomial_sd": self.binomial_sd,
+        }
+
+
+def flip_spread(
+    flipped: NDArray[np.bool_], starts: NDArray[np.bool_], member_draw: NDArray[np.int64]
+) -> FlipSpread | None:
+    """Per-draw flip probabilities over the members that start clear; None when no member starts clear."""
+    if not starts.any():
+        return None
+    d = member_draw[starts]
+    n = int(member_draw.max()) + 1
+    k = np.bincount(d, minlength=n)
+    f = np.bincount(d, weights=flipped[starts].astype(float), minlength=n)
+    has = k > 0
+    p = f[has] / k[has]
+    kk = k[has]
+    mean = float(p.mean())
+    q05, q50, q95 = (float(v) for v in np.quantile(p, [0.05, 0.5, 0.95]))
+    k_med = float(np.median(kk))
+    return FlipSpread(
+        draws=int(has.sum()),
+        members_per_draw_min=int(kk.min()),
+        members_per_draw_max=int(kk.max()),
+        mean=mean,
+        sd=float(p.std(ddof=1)) if p.size > 1 else 0.0,
+        p05=q05,
+        p50=q50,
+        p95=q95,
+        min=float(p.min()),
+        max=float(p.max()),
+        binomial_sd=math.sqrt(mean * (1.0 - mean) / k_med),
+    )
 
 
 @dataclass(frozen=True, eq=False)
@@ -72,6 +157,8 @@ class ScenarioResult:
         Two-pool lakes: ensemble median of the mobile sediment P in years 0 … T [kg].
     sediment_p_final_median_kg : float or None
         Two-pool lakes: its value in year T [kg].
+    p_flip_across_draws : FlipSpread or None
+        Lakes with ``parameter_draws``: the spread of ``p_flip`` across draws.
     """
 
     name: str
@@ -103,6 +190,7 @@ class ScenarioResult:
     message: str = ""
     sediment_median_kg: NDArray[np.float64] | None = None
     sediment_p_final_median_kg: float | None = None
+    p_flip_across_draws: FlipSpread | None = None
 
     @property
     def total_removed_kg(self) -> float:
@@ -141,6 +229,9 @@ class ScenarioResult:
         }
         if self.sediment_p_final_median_kg is not None:
             out["sediment_p_final_median_kg"] = self.sediment_p_final_median_kg
+        if self.lake.parameter_draws is not None:
+            spread = self.p_flip_across_draws
+            out["p_flip_across_draws"] = None if spread is None else spread.to_dict()
         if self.precaution is not None:
             pr = self.precaution
             out["precaution"] = {
@@ -218,6 +309,8 @@ def summarise(
     sample_paths: int = 20,
     precaution: PrecautionResult | None = None,
     sediment_kg: NDArray[np.float64] | None = None,
+    member_threshold_kg: NDArray[np.float64] | None = None,
+    member_draw: NDArray[np.int64] | None = None,
 ) -> ScenarioResult:
     """Summarise simulated paths of lake P into a :class:`ScenarioResult`.
 
@@ -238,17 +331,24 @@ def summarise(
     sediment_kg : ndarray, shape (members, years + 1), optional
         Two-pool lakes: sediment P [kg] of each member; its median path and
         final median are reported, and dredged P counts as removed in the lake.
+    member_threshold_kg : ndarray, shape (members, years + 1), optional
+        Each member's own clear threshold [kg] (parameter draws); ``threshold_kg``
+        is then the plan lake's, reported for display.
+    member_draw : ndarray of int, shape (members,), optional
+        Each member's parameter draw, for :class:`FlipSpread`.
     """
     T, M = scenario.years, scenario.members
     loads = scenario.loads()
     to_tp = lake.tp(1.0)  # TP [µg L⁻¹] per kg
     # percentiles along members, on the time-major view (faster); identical members need one row
     q05, q50, q95 = to_tp * np.percentile((P[:1] if identical_members else P).T, [5.0, 50.0, 95.0], axis=1)
-    clear = P < threshold_kg[None, :]
+    clear = P < (threshold_kg[None, :] if member_threshold_kg is None else member_threshold_kg)
     p_clear = clear.mean(axis=0)
     rec = recovery_years(clear, scenario.recovery_stay_years)
     starts = clear[:, 0]
-    p_flip = float((~clear[starts, 1:].all(axis=1)).mean()) if starts.any() else None
+    flipped: NDArray[np.bool_] = np.asarray(~clear[:, 1:].all(axis=1), dtype=bool)
+    p_flip = float(flipped[starts].mean()) if starts.any() else None
+    spread = None if member_draw is None else flip_spread(flipped, starts, member_draw)
     p_final = float(p_clear[-1])
     final = to_tp * P[:, -1]
     end_state: Literal["clear", "turbid", "mixed"] = (
@@ -290,4 +390,5 @@ def summarise(
         message=_message(scenario, p_final, med),
         sediment_median_kg=sed_median,
         sediment_p_final_median_kg=None if sed_median is None else float(sed_median[-1]),
+        p_flip_across_draws=spread,
     )

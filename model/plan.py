@@ -40,6 +40,7 @@ from numpy.typing import NDArray
 from . import units
 from .dynamics import MAX_LOSS_RATE
 from .lake_models import AnyLakeParameters, lake_folds, model_name
+from .parameter_draws import ParameterDraws
 from .params import LakeParameters
 from .schedules import (
     MAX_YEARS,
@@ -78,6 +79,10 @@ MAX_CELLS = 5_000_000
 MAX_SCENARIOS = 50
 
 CLEAR_RULES = ("separatrix", "tipping_fold")
+_TWO_POOL_DRAWS = (
+    "is for one-box lakes only: a two-pool lake's sediment parameters are set by you, not drawn from a fit; "
+    "leave parameter_draws out, or plan with the one-box lake of the fit"
+)
 NO_FOLDS = (
     "must be a TP [µg L⁻¹] for this lake: it has no folds (no tipping load), so there is "
     "no separatrix or tipping fold to define the clear state"
@@ -105,6 +110,13 @@ class ScenarioLake:
         Two-pool lake only: mobile sediment P at year 0 [kg], >= 0; None
         (the default) is the balance ``M* = s P₀ / (b + r g(P₀))`` with the
         starting water P.
+    parameter_draws : ParameterDraws or None
+        One-box lake only: parameter sets the record leaves possible
+        (:mod:`turnback.model.parameter_draws`); member ``i`` of every
+        scenario runs set ``i mod n``.  ``params`` stays the lake's nominal
+        parameters (the folds shown, and the clear threshold of any set
+        without folds).  A two-pool lake refuses them: its sediment
+        parameters are set by the user, not drawn from a fit.
     """
 
     params: AnyLakeParameters
@@ -112,8 +124,14 @@ class ScenarioLake:
     initial_tp_ug_l: float
     name: str = "lake"
     initial_sediment_p_kg: float | None = None
+    parameter_draws: ParameterDraws | None = None
 
     def __post_init__(self) -> None:
+        if self.parameter_draws is not None:
+            if isinstance(self.params, TwoPoolParameters):
+                raise FieldError(("parameter_draws",), _TWO_POOL_DRAWS)
+            if not isinstance(self.parameter_draws, ParameterDraws):
+                raise FieldError(("parameter_draws",), "must be ParameterDraws")
         if isinstance(self.params, TwoPoolParameters):
             check_map_limits(self.params)
             if self.initial_sediment_p_kg is not None:
@@ -183,6 +201,8 @@ class ScenarioLake:
         }
         if self.initial_sediment_p_kg is not None:
             out["initial_sediment_p_kg"] = self.initial_sediment_p_kg
+        if self.parameter_draws is not None:
+            out["parameter_draws"] = self.parameter_draws.to_list()
         return out
 
     @classmethod
@@ -193,6 +213,8 @@ class ScenarioLake:
             "the lake's loss_rate, recycling_max, recycling_half, recycling_exponent, volume_m3, initial_tp_ug_l",
         )
         model = d.get("model", "one-box")
+        if model == "two-pool" and "parameter_draws" in d:
+            raise FieldError(("parameter_draws",), _TWO_POOL_DRAWS)
         if model == "two-pool":
             known_keys(
                 d,
@@ -204,12 +226,13 @@ class ScenarioLake:
             return cls(two, d["volume_m3"], d["initial_tp_ug_l"], d.get("name", "lake"), d.get("initial_sediment_p_kg"))
         if model != "one-box":
             raise FieldError(("model",), f"must be 'one-box' or 'two-pool'; got {model!r}")
-        optional = ("name", "model") if "model" in d else ("name",)
+        optional = ("name", "model", "parameter_draws") if "model" in d else ("name", "parameter_draws")
         known_keys(d, (), (*cls._PARAM_KEYS, "volume_m3", "initial_tp_ug_l"), optional)
         for key in cls._PARAM_KEYS:
             number(d[key], (key,), lo=0.0, lo_open=True)  # a type message naming the field
         params = LakeParameters(**{k: d[k] for k in cls._PARAM_KEYS})
-        return cls(params, d["volume_m3"], d["initial_tp_ug_l"], d.get("name", "lake"))
+        draws = None if d.get("parameter_draws") is None else ParameterDraws.from_list(d["parameter_draws"])
+        return cls(params, d["volume_m3"], d["initial_tp_ug_l"], d.get("name", "lake"), parameter_draws=draws)
 
 
 # load schedules

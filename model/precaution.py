@@ -8,6 +8,15 @@ Precautionary load
     at the answer, ``sqrt(X (1 − X) / M)``, converted to load through the
     local slope ``dp/dL`` (a central difference on the same random numbers).
 
+Parameter draws
+    With a lake's ``parameter_draws`` (one-box), member ``i`` runs draw
+    ``i mod n``: it starts at that draw's own clear equilibrium at the trial
+    load, is judged by that draw's own threshold, and counts as flipped when
+    the draw has no clear state at that load (above its tipping load).  The
+    probability is then over both sources, the year-to-year variability and
+    what the record leaves unknown; the search range reaches the largest
+    tipping load of any draw.
+
 References
 ----------
 Carpenter, S. R., Ludwig, D. & Brock, W. A. (1999). Management of
@@ -28,10 +37,13 @@ from .clear_state import clear_threshold_kg, scenario_clear_below_kg
 from .dynamics import simulate
 from .equilibrium import Fold
 from .lake_models import AnyLakeParameters, lake_equilibria, lake_folds, lake_load_at
+from .parameter_draws import DrawFolds, ParameterDraws
 from .plan import MAX_CELLS, MAX_MEMBERS, MAX_YEARS, NO_FOLDS, Scenario, ScenarioLake
 from .progress import Cancel, Progress, RngLike, check_cancel, report
 from .validation import FieldError, number, whole
 from .variability import n_sources, varied
+
+DrawRule = Literal["separatrix", "tipping_fold", "fixed"]
 
 __all__ = ["FlipEstimate", "PrecautionResult", "flip_probability", "precautionary_load", "scenario_precaution"]
 
@@ -132,6 +144,38 @@ def _flips(
     return flipped, start, thr
 
 
+def _flips_draws(
+    params: AnyLakeParameters,
+    draws: ParameterDraws,
+    fd: DrawFolds,
+    rule: DrawRule,
+    load: float,
+    z: NDArray[np.float64],
+    cv: float,
+    sd: float,
+    clear_below_kg: float | None,
+    fs: tuple[Fold, ...],
+) -> NDArray[np.bool_]:
+    """Which members flip within the horizon at a sustained load, each member with its own draw."""
+    m = z.shape[0]
+    idx = draws.member_draw(0, m)
+    start = draws.clear_equilibrium_kg([load], fd)[:, 0]
+    nominal = clear_threshold_kg(params, load, clear_below_kg=clear_below_kg, fs=fs) if fs or clear_below_kg else np.nan
+    if rule == "separatrix":
+        thr = draws.separatrix_kg([load], fd)[:, 0]
+    elif rule == "tipping_fold":
+        thr = fd.tipping_p.copy()
+    else:
+        thr = np.full(draws.n, float(nominal))
+    thr = np.where(np.isfinite(thr), thr, nominal)
+    s0, t0 = start[idx], thr[idx]
+    gone = ~np.isfinite(s0) | ~(s0 < t0)
+    yearly, noise = varied(np.full(z.shape[-1], float(load)), z, cv, sd)
+    P = simulate(draws.take(idx), np.where(gone, 0.0, s0), np.ascontiguousarray(yearly), process_noise=noise).p
+    flipped: NDArray[np.bool_] = gone | (P[:, 1:] >= t0[:, None]).any(axis=1)
+    return flipped
+
+
 def flip_probability(
     params: AnyLakeParameters,
     load: float,
@@ -205,6 +249,8 @@ def precautionary_load(
     max_iter: int = 60,
     progress: Progress | None = None,
     cancel: Cancel | None = None,
+    draws: ParameterDraws | None = None,
+    draw_rule: DrawRule = "separatrix",
 ) -> PrecautionResult:
     r"""Largest sustained load ``L*`` with ``P(flip within N years | start clear at L) <= X``.
 
@@ -244,6 +290,11 @@ def precautionary_load(
     max_iter : int
     progress, cancel : callables, optional
         As in :func:`run_scenario`; checked every bisection step.
+    draws : ParameterDraws, optional
+        One-box parameter sets; member ``i`` runs set ``i mod n`` (module
+        docstring).  The probability is then over both sources.
+    draw_rule : {"separatrix", "tipping_fold", "fixed"}
+        Which threshold each draw is judged by (``fixed``: ``clear_below_kg``).
     """
     n_years = whole(within_years, ("within_years",), 1, MAX_YEARS)
     x = number(max_probability, ("max_probability",), lo=0.0, hi=1.0, lo_open=True, hi_open=True)
@@ -264,6 +315,11 @@ def precautionary_load(
             l_max = fs[0].load  # the clear branch ends (tipping fold) before it reaches the threshold
         else:
             l_max = _load_at_equilibrium(params, thr)  # the clear (or only) branch reaches the threshold here
+    fd = None
+    if draws is not None:
+        fd = draws.folds()
+        if draw_rule != "fixed" and fd.has.any():
+            l_max = max(l_max, float(np.nanmax(fd.tipping)))
     if l_max <= 0.0:
         return PrecautionResult(
             "none",
@@ -278,7 +334,7 @@ def precautionary_load(
             0,
             "the clear state is at or above the threshold even at zero load",
         )
-    if n_sources(cv, sd) == 0:
+    if n_sources(cv, sd) == 0 and draws is None:
         return PrecautionResult(
             "no_variability",
             l_max,
@@ -297,6 +353,8 @@ def precautionary_load(
     top = l_max * (1.0 - 1e-9)
 
     def p_hat(load: float) -> float:
+        if draws is not None and fd is not None:
+            return float(_flips_draws(params, draws, fd, draw_rule, load, z, cv, sd, clear_below_kg, fs).mean())
         return float(_flips(params, load, z, cv, sd, None, clear_below_kg, fs)[0].mean())
 
     p_lo = p_hat(0.0)
@@ -314,6 +372,9 @@ def precautionary_load(
             1,
             f"even at zero load {p_lo:.1%} of members flip within {n_years} years, above {x:.1%}",
         )
+    if draws is not None and p_hat(top) <= x:
+        msg = f"every load up to the top of the searched range ({top:,.0f} kg/yr) keeps the chance at or below {x:.1%}"
+        return PrecautionResult("ok", top, None, p_hat(top), n_years, x, m, l_max, None, 1, msg)
     lo, hi = 0.0, top
     p_at_lo = p_lo
     it = 0
@@ -341,7 +402,10 @@ def precautionary_load(
     report(progress, 1.0, "precautionary load: done")
     se_p = math.sqrt(x * (1.0 - x) / m)
     se = se_p / slope if slope else None
-    msg = f"largest sustained load with at most {x:.1%} chance of flipping within {n_years} years: {lo:,.0f} kg/yr"
+    both = " over the variability and the parameter draws" if draws is not None else ""
+    msg = (
+        f"largest sustained load with at most {x:.1%} chance of flipping within {n_years} years{both}: {lo:,.0f} kg/yr"
+    )
     msg += f" ± {se:,.0f} (Monte-Carlo error)" if se is not None else " (Monte-Carlo error not available)"
     return PrecautionResult("ok", lo, se, p_at_lo, n_years, x, m, l_max, slope, it, msg)
 
@@ -362,6 +426,8 @@ def scenario_precaution(
         raise FieldError(("precaution",), "is not set for this scenario")
     pr = scenario.precaution
     clear_below = scenario_clear_below_kg(lake, scenario)
+    rule = scenario.clear_threshold
+    draw_rule: DrawRule = rule if rule in ("separatrix", "tipping_fold") else "fixed"  # type: ignore[assignment]
     return precautionary_load(
         lake.params,
         within_years=pr.within_years,
@@ -373,4 +439,6 @@ def scenario_precaution(
         rng=np.random.default_rng(scenario.seed) if rng is None else rng,
         progress=progress,
         cancel=cancel,
+        draws=lake.parameter_draws,
+        draw_rule=draw_rule,
     )

@@ -37,11 +37,11 @@ from typing import Any
 
 from turnback.model.early_warning import INDICATORS
 from turnback.model.io.lake_file import load_profile_file
-from turnback.model.io.monitoring_csv import parse_monitoring
 from turnback.model.record import MonitoringSeries
 from turnback.model.stretch_warnings import DEFAULT_SEED, DEFAULT_SURROGATES, RecordWarnings, record_warnings
 from turnback.model.stretches import split_record
 
+from . import _records
 from ._shared import number
 
 MAX_SURROGATES = 100_000
@@ -56,7 +56,8 @@ def add_parser(sub: Any) -> None:
         "surrogate p-values (Dakos et al. 2012), over the whole record and on each stretch of one state: before "
         "each shift, and now. With a lake volume the record is fitted and each year classified clear or turbid "
         "by the fitted separatrix; without one, stretches come from change points in the TP level. FILE.csv has "
-        "the columns year, load_kg and tp_ug_l, one row per consecutive year.",
+        "the columns year, load_kg and tp_ug_l, one row per consecutive year, or one row per sample (date, tp_ug_l "
+        "or tp_mg_l, optionally site and depth_m) with --loads LOADS.csv; the indicators use the annual means.",
     )
     p.add_argument("file", metavar="FILE.csv", help="the monitoring record")
     p.add_argument("--volume-m3", type=number, metavar="V", help="lake volume [m³], for the fitted classification")
@@ -77,12 +78,13 @@ def add_parser(sub: Any) -> None:
         help=f"AR(1) surrogates per p-value (default {DEFAULT_SURROGATES}, the dashboard's)",
     )
     p.add_argument("--json", action="store_true", help="print one JSON object instead of text")
+    _records.add_arguments(p)
     p.set_defaults(run=run)
 
 
-def read_record(path: str) -> MonitoringSeries:
-    """The one place this command reads a record file."""
-    return parse_monitoring(path)
+def read_record(args: argparse.Namespace) -> MonitoringSeries:
+    """The one place this command reads a record file: either format (a ``date`` column means samples)."""
+    return _records.read(args)
 
 
 def _volume(args: argparse.Namespace) -> float | None:
@@ -148,7 +150,7 @@ def run(args: argparse.Namespace) -> int:
     if args.seed < 0:
         raise ValueError(f"--seed must be a whole number >= 0; got {args.seed}")
     volume = _volume(args)
-    series = read_record(args.file)
+    series = read_record(args)
     split = split_record(series, volume_m3=volume, fit=not args.no_fit)
     res = record_warnings(series, split, n_surrogates=args.surrogates, rng=args.seed)
     if args.json:

@@ -304,6 +304,27 @@ def other_cases() -> list[dict[str, Any]]:
         case("worker --redis-url nothing", ["worker", "--redis-url", "nothing"]),
         case("worker --concurrency 0", ["worker", "--redis-url", "redis://127.0.0.1:1/0", "--concurrency", "0"]),
         case("an unknown command", ["teleport"]),
+        case("handout without a lake", ["handout", "-o", "{tmp}/h.html"]),
+        case("handout with two lakes", ["handout", "--demo", "--lake", "{tmp}/l.json", "-o", "{tmp}/h.html"]),
+        case(
+            "handout -o a link",
+            ["handout", "--demo", "-o", "{tmp}/link.html"],
+            {"t.html": "keep", "link.html": {"symlink": "t.html"}},
+        ),
+        case("handout -o a folder", ["handout", "--demo", "-o", "{tmp}/d"], {"d": {"dir": True}}),
+        case(
+            "handout --lake without parameters",
+            ["handout", "--lake", "{tmp}/l.json", "-o", "{tmp}/h.html"],
+            {"l.json": json.dumps(LAKE)},
+        ),
+        case("handout --record /dev/zero", ["handout", "--demo", "--record", "/dev/zero", "-o", "{tmp}/h.html"]),
+        case(
+            "handout --record a FIFO",
+            ["handout", "--demo", "--record", "{tmp}/p", "-o", "{tmp}/h.html"],
+            {"p": {"fifo": True}},
+        ),
+        case("handout --units imperial", ["handout", "--demo", "--units", "imperial", "-o", "{tmp}/h.html"]),
+        case("handout --pdf a device", ["handout", "--demo", "-o", "{tmp}/h.html", "--pdf", "/dev/null"]),
     ]
     lakes_head = (
         "lake_id,name,volume_m3,area_km2,load_kg_yr,loss_rate,recycling_max,recycling_half,recycling_exponent\n"

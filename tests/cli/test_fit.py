@@ -21,8 +21,8 @@ from tests.model.test_monitoring import CORPUS
 from .driver import run_many as _run_many
 
 
-def run_many(cwd: Path, cases: list[list[str]]) -> list[dict[str, object]]:
-    return list(_run_many(cases, cwd, timeout=300))
+def run_many(cases: list[list[str]], cwd: Path | None = None) -> list[dict[str, object]]:
+    return list(_run_many(cases, cwd or ROOT, timeout=300))
 
 ROOT = Path(__file__).resolve().parents[2]
 DEMO_CSV = ROOT / "sample_data" / "amberlin_monitoring.csv"
@@ -42,7 +42,13 @@ def test_json_contract_on_the_demo_record() -> None:
     assert out.stderr == ""  # no progress lines with --json
     assert len(out.stdout.strip().splitlines()) == 1
     data = json.loads(out.stdout)
-    assert set(data) == {"params", "tipping_load", "recovery_load", "regime_probability", "warnings"}
+    assert set(data) == {
+        "params", "tipping_load", "recovery_load", "regime_probability", "warnings", "method", "error_model",
+        "parameter_draws",
+    }  # fmt: skip
+    assert data["method"] == "conditional_least_squares"  # annual means: the fast path by default
+    assert data["error_model"]["observation_sd_source"] == "not_modelled"
+    assert 0 < len(data["parameter_draws"]) <= 1000
     assert set(data["params"]) == {"loss_rate", "recycling_max", "recycling_half", "recycling_exponent"}
     assert all(isinstance(v, float) and v > 0 for v in data["params"].values())
     for key in ("tipping_load", "recovery_load"):
@@ -117,7 +123,7 @@ def test_bad_input_exits_2_with_one_line(args: list[str], fragment: str) -> None
 
 def test_every_corpus_file_through_the_command() -> None:
     names = sorted(CORPUS)
-    results = run_many(ROOT, [["fit", str(MALFORMED / n), "--volume-m3", "1e6", "--json"] for n in names])
+    results = run_many([["fit", str(MALFORMED / n), "--volume-m3", "1e6", "--json"] for n in names])
     for name, res in zip(names, results, strict=True):
         stderr = str(res["stderr"])
         assert res["rc"] == 2, (name, res)
@@ -141,7 +147,7 @@ def test_bad_options_through_the_command(tmp_path: Path) -> None:
         "cannot read monitoring file": ["fit", str(tmp_path / "absent.csv"), "--volume-m3", "1e6"],
         "cannot read lake file": ["fit", demo, "--lake", str(tmp_path / "absent.toml")],
     }
-    results = run_many(ROOT, list(cases.values()))
+    results = run_many(list(cases.values()))
     for fragment, res in zip(cases, results, strict=True):
         stderr = str(res["stderr"])
         assert res["rc"] == 2, (fragment, res)

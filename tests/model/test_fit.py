@@ -170,7 +170,12 @@ def test_result_is_well_formed() -> None:
     pr = res.regime_probability
     assert pr.reversible + pr.hysteretic + pr.irreversible == pytest.approx(1.0)
     d = res.to_dict()
-    assert set(d) == {"params", "tipping_load", "recovery_load", "regime_probability", "warnings"}
+    assert set(d) == {
+        "params", "tipping_load", "recovery_load", "regime_probability", "warnings", "method", "error_model",
+        "parameter_draws",
+    }  # fmt: skip
+    assert d["method"] == "conditional_least_squares"
+    assert len(d["parameter_draws"]) == res.replicates_used
     assert set(d["params"]) == {"loss_rate", "recycling_max", "recycling_half", "recycling_exponent"}
     assert 0.0 <= res.tipping_load.fold_fraction <= 1.0
     assert any("Only 120 bootstrap replicates" in w for w in res.warnings)

@@ -56,7 +56,7 @@ def on_load_kind(kind: str | None) -> list[dict[str, str]]:
     return [{} if shown[g] else {"display": "none"} for g in ids.PLAN_LOAD_GROUPS]
 
 
-def on_lake_note(tab: str | None, lake: Lake, history: Store) -> tuple[Any, Any, Any]:
+def on_lake_note(tab: str | None, lake: Lake, history: Store, fit: Store = None) -> tuple[Any, Any, Any]:
     """Which lake the plan is for and where it starts; the load now as the form's default starting load.
 
     Recomputed when the view is opened (the history only changes while another view is on show).
@@ -64,7 +64,7 @@ def on_lake_note(tab: str | None, lake: Lake, history: Store) -> tuple[Any, Any,
     if tab != ids.TAB_PLANS:
         return no_update, no_update, no_update
     _, load, _ = state_now(lake, history)
-    return lake_note(lake, history), f"{load:,.0f} (the load now)", lake["profile"]["name"]
+    return lake_note(lake, history, fit), f"{load:,.0f} (the load now)", lake["profile"]["name"]
 
 
 def on_plan_action(
@@ -93,7 +93,14 @@ def on_run_request(clicks: int, plan: Store, *, folder: Path) -> tuple[Any, str]
 
 
 def run_plan(
-    set_progress: SetProgress, request: Store, plan: Store, lake: Lake, history: Store, *, folder: Path
+    set_progress: SetProgress,
+    request: Store,
+    plan: Store,
+    lake: Lake,
+    history: Store,
+    *,
+    folder: Path,
+    fit: Store = None,
 ) -> tuple[Any, str]:
     """Run every scenario of the plan on the current lake; runs as a background callback."""
     token = (request or {}).get("token")
@@ -102,7 +109,7 @@ def run_plan(
     if not scenarios:
         return no_update, "Add a scenario to the plan first."
     try:
-        the_plan = Plan(plan_lake(lake, history), tuple(scenarios))
+        the_plan = Plan(plan_lake(lake, history, fit=fit), tuple(scenarios))
     except ValueError as exc:
         return no_update, f"Not run: {scenario_words(exc, scenarios)}. The previous results are kept."
     progress = ProgressReporter(set_progress)
@@ -149,14 +156,14 @@ def on_results(data: Store, meeting_value: list[str] | None, tab: str | None = i
     return (columns, outcome_table(comp.results, meeting), *figs.values())
 
 
-def on_results_note(data: Store, tab: str | None, lake: Lake, history: Store) -> Any:
+def on_results_note(data: Store, tab: str | None, lake: Lake, history: Store, fit: Store = None) -> Any:
     """What the last run was, and whether the lake has changed since."""
     if tab != ids.TAB_PLANS:
         return no_update  # worked out when the view is opened
     if not data or not data.get("results"):
         return "No run yet: add scenarios and press 'Run the plan'."
     try:
-        current: dict[str, Any] | None = plan_lake(lake, history).to_dict()
+        current: dict[str, Any] | None = plan_lake(lake, history, fit=fit).to_dict()
     except ValueError:
         current = None
     try:
@@ -193,9 +200,10 @@ def on_precaution_request(
     history: Store,
     *,
     folder: Path,
+    fit: Store = None,
 ) -> tuple[Any, str]:
     """Check the precaution form; a good one becomes a request for the background search."""
-    request, msg = precaution_request(scenario_name, years_text, percent_text, plan, lake, history, folder)
+    request, msg = precaution_request(scenario_name, years_text, percent_text, plan, lake, history, folder, fit)
     return (no_update if request is None else request), msg
 
 
@@ -269,7 +277,7 @@ def _register_form(app: Dash) -> None:
             Output(ids.PLAN_SAVE_NAME, "placeholder"),
         ],
         inputs={"tab": Input(ids.VIEW_TABS, "value"), "lake": Input(ids.LAKE_STORE, "data")},
-        state={"history": State(ids.HISTORY_STORE, "data")},
+        state={"history": State(ids.HISTORY_STORE, "data"), "fit": State(ids.FIT_STORE, "data")},
     )(on_lake_note)
     app.callback(
         output=[
@@ -320,8 +328,10 @@ def _register_run(app: Dash, folder: Path) -> None:
         prevent_initial_call=True,
     )(partial(on_run_request, folder=folder))
 
-    def run(set_progress: SetProgress, request: Store, plan: Store, lake: Lake, history: Store) -> tuple[Any, str]:
-        return run_plan(set_progress, request, plan, lake, history, folder=folder)
+    def run(
+        set_progress: SetProgress, request: Store, plan: Store, lake: Lake, history: Store, fit: Store = None
+    ) -> tuple[Any, str]:
+        return run_plan(set_progress, request, plan, lake, history, folder=folder, fit=fit)
 
     app.callback(
         output=[
@@ -333,6 +343,7 @@ def _register_run(app: Dash, folder: Path) -> None:
             "plan": State(ids.PLAN_STORE, "data"),
             "lake": State(ids.LAKE_STORE, "data"),
             "history": State(ids.HISTORY_STORE, "data"),
+            "fit": State(ids.FIT_STORE, "data"),
         },
         background=True,
         progress=[Output(ids.PLAN_PROGRESS, "value"), Output(ids.PLAN_PROGRESS_TEXT, "children")],
@@ -374,7 +385,11 @@ def _register_results(app: Dash) -> None:
     app.callback(
         output=Output(ids.PLAN_RESULTS_NOTE, "children"),
         inputs={"data": Input(ids.PLAN_RESULTS_STORE, "data"), "tab": Input(ids.VIEW_TABS, "value")},
-        state={"lake": State(ids.LAKE_STORE, "data"), "history": State(ids.HISTORY_STORE, "data")},
+        state={
+            "lake": State(ids.LAKE_STORE, "data"),
+            "history": State(ids.HISTORY_STORE, "data"),
+            "fit": State(ids.FIT_STORE, "data"),
+        },
     )(on_results_note)
     app.callback(
         output=[Output(ids.PLAN_DOWNLOAD, "data"), Output(ids.PLAN_EXPORT_MESSAGE, "children")],
@@ -420,6 +435,7 @@ def _register_precaution(app: Dash, folder: Path) -> None:
             "plan": State(ids.PLAN_STORE, "data"),
             "lake": State(ids.LAKE_STORE, "data"),
             "history": State(ids.HISTORY_STORE, "data"),
+            "fit": State(ids.FIT_STORE, "data"),
         },
         prevent_initial_call=True,
     )(partial(on_precaution_request, folder=folder))

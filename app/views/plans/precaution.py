@@ -28,6 +28,7 @@ def precaution_request(
     lake: Mapping[str, Any],
     history: Mapping[str, Any] | None,
     folder: Path,
+    fit: Mapping[str, Any] | None = None,
 ) -> tuple[PrecautionRequest | None, str]:
     """Check the precaution form; a good one becomes a request for the background search (else a message)."""
     scenarios = {s.name: s for s in scenarios_of(plan)}
@@ -40,7 +41,7 @@ def precaution_request(
     except ValueError as exc:
         return None, str(exc)
     try:
-        slake = plan_lake(lake, history)
+        slake = plan_lake(lake, history, fit=fit)
         Plan(slake, (scenarios[scenario_name],))
     except ValueError as exc:
         return None, f"Cannot search: {scenario_words(exc, [scenarios[scenario_name]])}"

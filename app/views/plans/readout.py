@@ -7,17 +7,55 @@ from typing import Any
 
 from dash import html
 from turnback.model.equilibrium import folds
+from turnback.model.parameter_draws import ParameterDraws
 from turnback.model.plan import ScenarioLake
 
 from ... import ids
-from ...stores import lake_from_store, same_lake, state_now
+from ...stores import fit_of, lake_from_store, same_lake, state_now
 
 
-def plan_lake(lake: Mapping[str, Any], history: Mapping[str, Any] | None, name: str | None = None) -> ScenarioLake:
-    """The current lake as a :class:`ScenarioLake` starting at its state now (ValueError if the map cannot run it)."""
+def fit_draws(lake: Mapping[str, Any], fit: Mapping[str, Any] | None) -> ParameterDraws | None:
+    """The lakes the last fit leaves possible (its bootstrap or posterior draws), when the fit is of this lake."""
+    f = fit_of(lake, fit)
+    cloud = (f or {}).get("cloud") or []
+    if not cloud:
+        return None
+    try:
+        return ParameterDraws.from_rows(cloud)
+    except ValueError:
+        return None
+
+
+def plan_lake(
+    lake: Mapping[str, Any],
+    history: Mapping[str, Any] | None,
+    name: str | None = None,
+    fit: Mapping[str, Any] | None = None,
+) -> ScenarioLake:
+    """The current lake as a :class:`ScenarioLake` starting at its state now (ValueError if the map cannot run it).
+
+    After a fit of this lake its members run the fit's parameter draws (:func:`fit_draws`).
+    """
     params, profile = lake_from_store(lake)
     p, _, _ = state_now(lake, history)
-    return ScenarioLake(params, profile.volume_m3, float(profile.concentration(p)), name=name or profile.name)
+    return ScenarioLake(
+        params,
+        profile.volume_m3,
+        float(profile.concentration(p)),
+        name=name or profile.name,
+        parameter_draws=fit_draws(lake, fit),
+    )
+
+
+def draws_words(draws: ParameterDraws | None) -> str:
+    """What the parameter draws mean for a plan, in plain words ('' without draws)."""
+    if draws is None:
+        return ""
+    return (
+        f" The monitoring record does not pin the lake down, so each scenario's members take turns among the "
+        f"{draws.n} lakes the last fit found possible: the chances shown include both the year-to-year "
+        "variability and what the record leaves unknown. Change the lake's settings to plan with one lake."
+    )
 
 
 def lake_words(lake: ScenarioLake) -> str:
@@ -28,8 +66,10 @@ def lake_words(lake: ScenarioLake) -> str:
     )
 
 
-def lake_note(lake: Mapping[str, Any], history: Mapping[str, Any] | None) -> list[Any]:
-    """Which lake the plan is for and where its scenarios start."""
+def lake_note(
+    lake: Mapping[str, Any], history: Mapping[str, Any] | None, fit: Mapping[str, Any] | None = None
+) -> list[Any]:
+    """Which lake the plan is for, where its scenarios start, and whether they use the fit's draws."""
     params, profile = lake_from_store(lake)
     p, load, year = state_now(lake, history)
     tp = float(profile.concentration(p))
@@ -41,7 +81,8 @@ def lake_note(lake: Mapping[str, Any], history: Mapping[str, Any] | None) -> lis
     return [
         html.B(profile.name),
         f": scenarios start at TP {tp:.1f} µg/L ({p:,.0f} kg P), {where}, with the load now {load:,.0f} kg/yr."
-        + fold_text,
+        + fold_text
+        + draws_words(fit_draws(lake, fit)),
     ]
 
 

@@ -11,7 +11,8 @@ from typing import Any
 from dash import Dash, Input, Output, State, html, no_update
 from turnback.model.early_warning import EarlyWarning, early_warning
 from turnback.model.fit import fit_monitoring
-from turnback.model.io.monitoring_csv import MonitoringError, parse_monitoring
+from turnback.model.io.monitoring_csv import MonitoringError
+from turnback.model.io.sample_csv import read_record
 
 from ... import ids
 from ...background import ProgressReporter, SetProgress
@@ -24,7 +25,12 @@ from .fit import FIT_SEED, fit_summary, fit_to_stores, parse_replicates, parse_v
 
 
 def on_upload(contents: str | None, filename: str | None) -> tuple[Any, Any]:
-    """Read an uploaded CSV; a bad file gets a message and the record on show stays."""
+    """Read an uploaded CSV in either format; a bad file gets a message and the record on show stays.
+
+    A sample file (a ``date`` column) needs its loads in a ``load_kg`` column
+    (each year's load on at least one of its rows); the annual means and their
+    standard errors follow the default rules of :mod:`turnback.model.sample_means`.
+    """
     if not contents:
         return no_update, ""
     name = filename or "the file"
@@ -34,7 +40,7 @@ def on_upload(contents: str | None, filename: str | None) -> tuple[Any, Any]:
     except (ValueError, binascii.Error):
         return no_update, f"{name}: the upload could not be read; choose the file again."
     try:
-        series = parse_monitoring(raw)
+        series = read_record(raw)
     except MonitoringError as exc:
         problems = exc.problems
         head = f"{name} was not loaded, and the record on show is unchanged."
@@ -53,11 +59,21 @@ def record_summary(record: Mapping[str, Any], meeting: bool = False) -> str:
     if meeting:
         plain = {"secchi_m": "see-through depth", "chl_ug_l": "algae"}
         extra = [plain[c] for c in extra]
+    samples = ""
+    if record.get("n_samples"):
+        few = [str(y) for y, f in zip(record["year"], record.get("few_samples") or [], strict=False) if f]
+        samples = (
+            f" Annual means of {sum(record['n_samples']):,} site visits in the growing season (May–October), with "
+            + ("how sure each year is shown as bars" if meeting else "their standard errors as error bars")
+            + (f"; fewer than 4 samples in {', '.join(few)} (flagged, wider bars)" if few else "")
+            + "."
+        )
     return (
         f"On show: {record['name']}, {n} years ({record['year'][0]}–{record['year'][-1]}), "
         f"TP {min(record['tp_ug_l']):.0f}–{max(record['tp_ug_l']):.0f} µg/L, "
         f"load {min(record['load_kg']):.0f}–{max(record['load_kg']):.0f} kg/yr"
         + (f"; also {', '.join(extra)}." if extra else ".")
+        + samples
     )
 
 

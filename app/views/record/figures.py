@@ -33,18 +33,34 @@ def record_figure(record: Mapping[str, Any], *, meeting: bool = False) -> go.Fig
     tp_name = "lake phosphorus (measured)" if meeting else "lake TP (observed)"
     load_name = "phosphorus inflow (measured)" if meeting else "external load (observed)"
     fig = make_subplots(rows=2, cols=1, shared_xaxes=True, row_heights=[0.6, 0.4], vertical_spacing=0.07)
+    se = record.get("tp_se_ug_l")
     fig.add_trace(
         go.Scatter(
             x=record["year"],
             y=record["tp_ug_l"],
             mode="lines+markers",
-            name=tp_name,
+            name=tp_name if se is None else tp_name + (" ± how sure" if meeting else " ± 2 standard errors"),
             line={"color": HISTORY},
+            error_y=None if se is None else {"type": "data", "array": [2.0 * v for v in se], "visible": True},
             hovertemplate="%{x}: %{y:.1f} µg/L<extra></extra>",
         ),
         row=1,
         col=1,
     )
+    few = record.get("few_samples")
+    if se is not None and few and any(few):
+        fig.add_trace(
+            go.Scatter(
+                x=[y for y, f in zip(record["year"], few, strict=True) if f],
+                y=[v for v, f in zip(record["tp_ug_l"], few, strict=True) if f],
+                mode="markers",
+                name="few samples (flagged)",
+                marker={"symbol": "circle-open", "size": 12, "color": TURBID},
+                hovertemplate="%{x}: few samples<extra></extra>",
+            ),
+            row=1,
+            col=1,
+        )
     fig.add_trace(
         go.Scatter(
             x=record["year"],

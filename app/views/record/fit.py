@@ -54,16 +54,18 @@ def fit_summary(fit: Mapping[str, Any], meeting: bool = False, in_use: bool = Fa
     p = fit["params"]
     se = fit.get("se", {})
     probs = fit["regime_probability"]
+    how = (
+        ("a fit that allows for sampling error" if meeting else
+         f"the fit with observation error (from the samples' standard errors) and {fit['replicates']} posterior draws")
+        if fit.get("method") == "state_space_laplace"
+        else (f"{fit['replicates']} repeat fits" if meeting else f"{fit['replicates']} bootstrap replicates")
+    )
     prob_text = ", ".join(
         f"{regime_name(k, meeting)} {share(v)}" for k, v in sorted(probs.items(), key=lambda kv: -kv[1])
     )
     plausible = _plausible(fit)
     rows: list[Any] = [
-        html.Div(
-            f"Fitted to {fit['record_name']} with {fit['replicates']} "
-            + ("repeat fits." if meeting else "bootstrap replicates."),
-            className="readout-row",
-        )
+        html.Div(f"Fitted to {fit['record_name']} with {how}.", className="readout-row")
     ]
     if not meeting:
         rows.append(
@@ -188,6 +190,7 @@ def fit_to_stores(
         "replicates": result.replicates,
         "cloud": cloud.tolist(),
         "observed": {"year": record["year"], "load": record["load_kg"], "tp": record["tp_ug_l"]},
+        "method": d["method"],
     }
     extra: dict[str, Any] = {
         "proposal": dict(new_lake),

@@ -12,7 +12,10 @@ from ...theme import both, graph
 
 FORMAT_HINT = (
     "CSV with one row a year: year (a four-digit calendar year, consecutive), load_kg (external TP load that "
-    "year, kg), tp_ug_l (lake mean TP, µg/L); optionally secchi_m and chl_ug_l. From 10 to 5,000 years. The "
+    "year, kg), tp_ug_l (lake mean TP, µg/L); optionally secchi_m and chl_ug_l. From 10 to 5,000 years. Or one "
+    "row per water sample: date (YYYY-MM-DD), tp_ug_l or tp_mg_l (<X below the detection limit X), optionally "
+    "site and depth_m, and load_kg with each year's load on at least one of its rows; the view makes "
+    "growing-season (May–October) means with standard errors and the fit then allows for sampling error. The "
     "invented record of the demo lake is loaded to start with."
 )
 FORMAT_HINT_PLAIN = (
