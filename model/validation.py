@@ -48,7 +48,8 @@ def path_text(path: Sequence[PathPart]) -> str:
         if isinstance(part, int):
             out += f"[{part}]"
         else:
-            out += f".{part}" if out else part
+            name = part if part.isprintable() and part.strip() == part and part else repr(part)
+            out += f".{name}" if out else name
     return out
 
 

@@ -7,7 +7,7 @@ import json
 from pathlib import Path
 from typing import Any
 
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 from turnback.model.io.files import loads_strict
 from turnback.model.io.lake_file import load_profile_file
@@ -72,6 +72,7 @@ def test_plan_from_any_json_value(value: Any) -> None:
 
 @SETTINGS
 @given(json_values)
+@example({"0\n": 1})  # an unknown key with a line break: the message stays one line
 def test_lake_parts_from_any_json_value(value: Any) -> None:
     _only_value_errors(LakeProfile.from_dict, value)
     _only_value_errors(LakeParameters.from_dict, value)
