@@ -211,3 +211,18 @@ PLAN_EXPORT_TRAJECTORIES = "plan-export-trajectories"
 PLAN_EXPORT_TABLE = "plan-export-table"
 PLAN_DOWNLOAD = "plan-download"
 PLAN_EXPORT_MESSAGE = "plan-export-message"
+
+# --------------------------------------------------------------------------
+# the two-pool lake (water and mud)
+# --------------------------------------------------------------------------
+LAKE_MODEL = "lake-model"  # the choice between the two lake models
+ONE_BOX_FIELDS_BOX = "one-box-fields"
+TWO_POOL_FIELDS_BOX = "two-pool-fields"
+#: two-pool field -> (input id, message id)
+TWO_POOL_FIELDS = {
+    name: (f"field-2pool-{name}", f"field-2pool-{name}-message")
+    for name in ("sedimentation", "outflow", "burial", "recycling_rate", "recycling_half", "recycling_exponent")
+}
+STATE_SEDIMENT = "state-sediment"  # water P and sediment P in the readout
+TIME_LAG = "time-lag"  # the years until clear water, under the time panel
+PLAN_BOTH_MODELS = "plan-both-models"  # run the plan under both lake models side by side

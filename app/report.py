@@ -26,6 +26,7 @@ from typing import Any
 
 import plotly.graph_objects as go
 from turnback.model.outcomes import Comparison
+from turnback.model.two_pool import TwoPoolParameters
 
 from .views.plans.figures import clear_probability_figure, load_figure, recovery_figure, trajectory_figure
 
@@ -48,6 +49,25 @@ CAUTIONS: tuple[str, ...] = (
     "Probabilities come from a finite ensemble and carry Monte-Carlo error; the lake's parameters carry "
     "further uncertainty that these numbers do not include.",
 )
+
+
+#: the two-pool lake's own cautions (its sediment parameters are rarely known; dredging is an in-lake treatment)
+TWO_POOL_CAUTIONS: tuple[str, ...] = (
+    "This lake is the two-pool model (water and mobile sediment P, after Carpenter 2005): its burial and "
+    "recycling rates, and the sediment P itself, are rarely known, and the recovery years depend on them.",
+    "Dredging and sediment P inactivation are in-lake treatments that need permits and licensed practice.",
+)
+
+
+def cautions_for(comparison: Comparison) -> tuple[str, ...]:
+    """The report's cautions; a two-pool lake's name its model and add its own."""
+    if not isinstance(comparison.plan.lake.params, TwoPoolParameters):
+        return CAUTIONS
+    first = CAUTIONS[0].replace(
+        "a simplified one-box model of lake phosphorus (Carpenter, Ludwig & Brock 1999)",
+        "a simplified two-pool model of lake phosphorus (Carpenter 2005)",
+    )
+    return (first, *CAUTIONS[1:], *TWO_POOL_CAUTIONS)
 
 
 def report_figures(comparison: Comparison) -> dict[str, go.Figure]:
@@ -215,13 +235,30 @@ dl.params dt { font-weight: 600; } dl.params dd { margin: 0; }
 def _parameters_html(comparison: Comparison) -> str:
     lake = comparison.plan.lake
     p = lake.params
-    items = [
-        ("Lake", html.escape(lake.name)),
-        ("Loss rate s", f"{p.s:g} yr⁻¹ (burial plus outflow)"),
-        ("Maximum recycling r", f"{p.r:,.6g} kg yr⁻¹"),
-        ("Recycling half-saturation m", f"{p.m:,.6g} kg ({float(lake.tp(p.m)):.1f} µg/L)"),
-        ("Recycling exponent q", f"{p.q:g}"),
-        ("Dimensionless b = s m / r", f"{p.to_dimensionless().b:.4g}"),
+    items: list[tuple[str, str]] = [("Lake", html.escape(lake.name))]
+    if isinstance(p, TwoPoolParameters):
+        m0 = lake.initial_sediment_p_kg
+        if m0 is None:
+            m0 = float(p.sediment_balance(lake.initial_p_kg))
+        items += [
+            ("Lake model", "two-pool: water P and mobile sediment P (after Carpenter 2005)"),
+            ("Sedimentation s", f"{p.s:g} yr⁻¹"),
+            ("Outflow h", f"{p.h:g} yr⁻¹"),
+            ("Burial b", f"{p.b:g} yr⁻¹"),
+            ("Recycling rate r", f"{p.r:g} yr⁻¹ (largest yearly fraction of sediment P recycled)"),
+            ("Recycling half-saturation m", f"{p.m:,.6g} kg ({float(lake.tp(p.m)):.1f} µg/L)"),
+            ("Recycling exponent q", f"{p.q:g}"),
+            ("Starting sediment P (year 0)", f"{m0:,.0f} kg"),
+        ]
+    else:
+        items += [
+            ("Loss rate s", f"{p.s:g} yr⁻¹ (burial plus outflow)"),
+            ("Maximum recycling r", f"{p.r:,.6g} kg yr⁻¹"),
+            ("Recycling half-saturation m", f"{p.m:,.6g} kg ({float(lake.tp(p.m)):.1f} µg/L)"),
+            ("Recycling exponent q", f"{p.q:g}"),
+            ("Dimensionless b = s m / r", f"{p.to_dimensionless().b:.4g}"),
+        ]
+    items += [
         ("Volume", f"{lake.volume_m3:.4g} m³"),
         ("Starting TP (year 0)", f"{lake.initial_tp_ug_l:g} µg/L ({lake.initial_p_kg:,.0f} kg)"),
         ("Regime", comparison.regime),
@@ -305,7 +342,9 @@ def build_report_html(
         f'<p class="meta">Generated {html.escape(when)} by Turnback'
         + (f" from {html.escape(source)}" if source else "")
         + f". {len(comparison.results)} scenario(s).</p>",
-        '<div class="caution"><b>Cautions</b>' + "".join(f"<p>{html.escape(c)}</p>" for c in CAUTIONS) + "</div>",
+        '<div class="caution"><b>Cautions</b>'
+        + "".join(f"<p>{html.escape(c)}</p>" for c in cautions_for(comparison))
+        + "</div>",
         "<h2>Outcomes</h2>",
         "<p>Click a column heading to sort.</p>",
         _table_html(comparison),

@@ -19,7 +19,7 @@ from .views.plans.layout import build_view as plans_view
 from .views.record.layout import build_view as record_view
 
 CAUTION = (
-    "These figures are scenario estimates from a simplified one-box model of lake phosphorus. "
+    "These figures are scenario estimates from a simplified (one-box or two-pool) model of lake phosphorus. "
     "They are not a water-safety or health assessment: follow local health authorities and their advisories. "
     "In-lake treatments need permits and licensed practice."
 )

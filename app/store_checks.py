@@ -26,6 +26,7 @@ from turnback.model.io.monitoring_csv import MAX_ROWS
 from turnback.model.params import MAX_VALUE, LakeParameters, LakeProfile
 from turnback.model.plan import MAX_SCENARIOS, MAX_YEARS, Scenario, ScenarioLake
 from turnback.model.schedules import treatment_from_dict
+from turnback.model.two_pool import TwoPoolParameters, check_map_limits
 from turnback.model.validation import FieldError
 
 from . import ids
@@ -169,12 +170,26 @@ def _model(build: Callable[[], object], what: str) -> None:
 # --------------------------------------------------------------------------
 def check_lake(v: Any) -> None:
     d = _dict(v, "a lake")
-    _model(lambda: (LakeParameters.from_dict(d["params"]), LakeProfile.from_dict(d["profile"])), "a lake")
+    model = d.get("model", "one-box")
+    if model == "two-pool":
+        # the annual map's limits too: every two-pool lake in the store must run
+        _model(lambda: check_map_limits(TwoPoolParameters.from_dict(d["params"])), "a lake")
+        _model(lambda: LakeProfile.from_dict(d["profile"]), "a lake")
+    elif model == "one-box" and "model" not in d:
+        _model(lambda: (LakeParameters.from_dict(d["params"]), LakeProfile.from_dict(d["profile"])), "a lake")
+    else:
+        raise _bad("a lake", "an unknown lake model")
     if "start" in d:
         s = _dict(d["start"], "a lake's start")
         _numbers([s.get("year")], "a lake's start year", 1, -10_000, 10_000)
         _numbers([s.get("p")], "a lake's start", 1, 0.0, MAX_VALUE)
-    if set(d) - {"params", "profile", "start"}:
+        if "m" in s:
+            if model != "two-pool":
+                raise _bad("a lake", "a sediment start for a one-box lake")
+            _numbers([s.get("m")], "a lake's sediment start", 1, 0.0, MAX_VALUE)
+        if set(s) - {"year", "p", "m"}:
+            raise _bad("a lake's start", "unknown fields")
+    if set(d) - {"params", "profile", "start", "model"}:
         raise _bad("a lake", "unknown fields")
 
 
@@ -187,6 +202,8 @@ def check_history(v: Any) -> None:
     _numbers(d.get("year"), "a history's years", n, -1e7, 1e7)
     _numbers(d.get("load"), "a history's loads", n, 0.0, MAX_VALUE)
     _numbers(d.get("p"), "a history's lake P", n, 0.0, MAX_VALUE)
+    if "m" in d:
+        _numbers(d.get("m"), "a history's sediment P", n, 0.0, MAX_VALUE)
     for e in _list(d.get("event"), "a history's events", n, min_len=n):
         _text(e, "a history's events", 40)
 
@@ -200,6 +217,14 @@ def check_history_tail(v: Any) -> None:
     _numbers([d.get("load")], "the lake's latest load", 1, 0.0, MAX_VALUE)
     _numbers([d.get("p")], "the lake's latest P", 1, 0.0, MAX_VALUE)
     _numbers([d.get("n")], "the history's length", 1, 1, MAX_HISTORY_POINTS)
+    if "m" in d:
+        _numbers([d.get("m")], "the lake's latest sediment P", 1, 0.0, MAX_VALUE)
+    if "change" in d:
+        c = _dict(d["change"], "the lake's last inflow change")
+        _numbers([c.get("year")], "the lake's last inflow change", 1, -1e7, 1e7)
+        _numbers([c.get("lag")], "the years until clear water", 1, 0, 1e7, allow_none=True)
+        if set(c) - {"year", "lag"}:
+            raise _bad("the lake's last inflow change", "unknown fields")
 
 
 def check_record(v: Any) -> None:
@@ -269,6 +294,16 @@ def check_results(v: Any) -> None:
             if key in r:
                 series = _list(r[key], "a scenario's yearly results", MAX_YEARS + 1)
                 _numbers(series, "a scenario's yearly results", len(series), -MAX_VALUE, MAX_VALUE)
+    if "other" in d:
+        check_other_results(d["other"])
+
+
+def check_other_results(v: Any) -> None:
+    """The side-by-side run under the other lake model (``PLAN_RESULTS_STORE["other"]``)."""
+    d = _dict(v, "plan results")
+    if set(d) - {"lake", "model", "results"} or d.get("model") not in ("one-box", "two-pool"):
+        raise _bad("plan results", "a malformed side-by-side run")
+    check_results({"lake": d.get("lake"), "results": d.get("results")})
 
 
 def check_token_request(v: Any) -> None:

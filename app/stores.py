@@ -36,11 +36,14 @@ import numpy as np
 from turnback.model.equilibrium import equilibria
 from turnback.model.io.monitoring_csv import parse_monitoring
 from turnback.model.io.resources import DEMO_RECORD_NAME, demo_record_bytes
+from turnback.model.lake_models import AnyLakeParameters
 from turnback.model.outcomes import Comparison, ScenarioResult
 from turnback.model.params import LakeParameters, LakeProfile
 from turnback.model.plan import Plan, Precaution, Scenario, ScenarioLake
 from turnback.model.precaution import PrecautionResult
 from turnback.model.record import MonitoringSeries
+from turnback.model.two_pool import TwoPoolParameters
+from turnback.model.two_pool_equilibrium import equilibria as two_pool_equilibria
 
 #: relative tolerance of :func:`same_lake`
 SAME_LAKE_RTOL = 1e-5
@@ -51,15 +54,22 @@ SAME_LAKE_RTOL = 1e-5
 # --------------------------------------------------------------------------
 class LakeStart(TypedDict):
     year: int
-    p: float  # lake P [kg]
+    p: float  # lake (water) P [kg]
+    m: NotRequired[float]  # two-pool lake: sediment P [kg]
 
 
 class LakeStore(TypedDict):
-    """``LAKE_STORE``: the last valid lake."""
+    """``LAKE_STORE``: the last valid lake.
 
-    params: dict[str, float]  # LakeParameters.to_dict()
+    A one-box lake has no ``model`` key (exactly as before the two-pool lake);
+    a two-pool lake says ``"model": "two-pool"`` and ``params`` holds
+    ``TwoPoolParameters.to_dict()``.
+    """
+
+    params: dict[str, float]  # LakeParameters.to_dict() or TwoPoolParameters.to_dict()
     profile: dict[str, Any]  # LakeProfile.to_dict()
     start: NotRequired[LakeStart]  # where a fitted lake starts: the last observed year
+    model: NotRequired[str]  # "two-pool" (absent: one-box)
 
 
 class HistoryStore(TypedDict):
@@ -68,8 +78,9 @@ class HistoryStore(TypedDict):
     lake_key: str  # the lake it belongs to (:func:`lake_key`)
     year: list[int]
     load: list[float]  # [kg yr⁻¹]
-    p: list[float]  # lake P [kg]
+    p: list[float]  # lake (water) P [kg]
     event: list[str]  # "start", "load", "removal", "after-removal" or ""
+    m: NotRequired[list[float]]  # two-pool lake: sediment P [kg]
 
 
 class RecordStore(TypedDict):
@@ -195,12 +206,26 @@ class ResultsStore(TypedDict):
 # --------------------------------------------------------------------------
 # the lake
 # --------------------------------------------------------------------------
-def lake_to_store(params: LakeParameters, profile: LakeProfile) -> LakeStore:
-    return {"params": params.to_dict(), "profile": profile.to_dict()}
+def lake_to_store(params: AnyLakeParameters, profile: LakeProfile) -> LakeStore:
+    store: LakeStore = {"params": params.to_dict(), "profile": profile.to_dict()}
+    if isinstance(params, TwoPoolParameters):
+        store["model"] = "two-pool"
+    return store
 
 
-def lake_from_store(data: Mapping[str, Any]) -> tuple[LakeParameters, LakeProfile]:
+def lake_from_store(data: Mapping[str, Any]) -> tuple[AnyLakeParameters, LakeProfile]:
+    """The lake's parameters (of its model) and profile."""
+    model = data.get("model", "one-box")
+    if model == "two-pool":
+        return TwoPoolParameters.from_dict(data["params"]), LakeProfile.from_dict(data["profile"])
+    if model != "one-box":
+        raise ValueError(f"unknown lake model {model!r}")
     return LakeParameters.from_dict(data["params"]), LakeProfile.from_dict(data["profile"])
+
+
+def is_two_pool(data: Mapping[str, Any] | None) -> bool:
+    """Whether a stored lake is a two-pool lake."""
+    return bool(data) and data.get("model") == "two-pool"  # type: ignore[union-attr]
 
 
 def _canonical(v: Any) -> Any:
@@ -229,7 +254,9 @@ def _lake_numbers(lake: Mapping[str, Any]) -> dict[str, float]:
             "mean_depth_m": profile.mean_depth_m,
             "load_kg_yr": profile.load_kg_per_yr,
         }
-    return {k: float(v) for k, v in lake.items() if k not in ("name", "parameter_draws")}  # a ScenarioLake.to_dict()
+    # a ScenarioLake.to_dict()
+    out = {k: float(v) for k, v in lake.items() if k not in ("name", "model", "parameter_draws")}
+    return out | ({"two_pool": 1.0} if lake.get("model") == "two-pool" else {})
 
 
 def same_lake(a: Mapping[str, Any], b: Mapping[str, Any]) -> bool:
@@ -252,24 +279,52 @@ def same_lake(a: Mapping[str, Any], b: Mapping[str, Any]) -> bool:
 # --------------------------------------------------------------------------
 # the history
 # --------------------------------------------------------------------------
-def starting_state(params: LakeParameters, load: float) -> float:
-    """The clear-water equilibrium at ``load`` where it exists, else the only stable one [kg]."""
+def starting_state(params: AnyLakeParameters, load: float) -> float:
+    """Where a lake starts at ``load`` [kg]: (water) P.
+
+    One-box: the clear-water equilibrium where it exists, else the only
+    stable one.  Two-pool: the turbid equilibrium where it exists (the lake
+    with a sediment legacy the model is for), else the only stable one.
+    """
+    if isinstance(params, TwoPoolParameters):
+        return two_pool_start(params, load)[0]
     stable = [e for e in equilibria(params, load) if e.stable]
     return stable[0].p if stable else equilibria(params, load)[0].p
 
 
+def two_pool_start(params: TwoPoolParameters, load: float) -> tuple[float, float]:
+    """Water P and sediment P [kg] where a two-pool lake starts at ``load``: its turbid state where it has one."""
+    eqs = two_pool_equilibria(params, load)
+    stable = [e for e in eqs if e.stable] or list(eqs)
+    e = stable[-1]
+    return e.p, e.m
+
+
 def new_history(lake: Mapping[str, Any]) -> HistoryStore:
-    """A history of one point: the lake's start (a fitted lake's last observed year, else its clear state)."""
+    """A history of one point: the lake's start (a fitted lake's last observed year, else its starting state).
+
+    A two-pool lake's history carries its sediment P too (``m``).
+    """
     params, profile = lake_from_store(lake)
     load = profile.load_kg_per_yr
     start = lake.get("start") or {}
-    return {
+    p = float(start["p"]) if "p" in start else starting_state(params, load)
+    out: HistoryStore = {
         "lake_key": lake_key(lake),
         "year": [int(start.get("year", 0))],
         "load": [load],
-        "p": [float(start["p"]) if "p" in start else starting_state(params, load)],
+        "p": [p],
         "event": ["start"],
     }
+    if isinstance(params, TwoPoolParameters):
+        if "m" in start:
+            m = float(start["m"])
+        elif "p" in start:
+            m = float(params.sediment_balance(p))
+        else:
+            m = two_pool_start(params, load)[1]
+        out["m"] = [m]
+    return out
 
 
 def history_of(lake: Mapping[str, Any], history: Mapping[str, Any] | None) -> Mapping[str, Any] | None:
@@ -283,11 +338,23 @@ def state_now(lake: Mapping[str, Any], history: Mapping[str, Any] | None) -> tup
     The last state of the session's history when it belongs to this lake,
     else the clear equilibrium at the profile's present-day load.
     """
-    params, profile = lake_from_store(lake)
+    _, profile = lake_from_store(lake)
     h = history_of(lake, history)
     if h and h.get("p"):
         return float(h["p"][-1]), float(h["load"][-1]), int(h["year"][-1])
-    return starting_state(params, profile.load_kg_per_yr), profile.load_kg_per_yr, None
+    start = new_history(lake)
+    return float(start["p"][0]), profile.load_kg_per_yr, None
+
+
+def sediment_now(lake: Mapping[str, Any], history: Mapping[str, Any] | None) -> float | None:
+    """Sediment P now [kg] of a two-pool lake (the history's last state, else its start); None for one-box."""
+    params, _ = lake_from_store(lake)
+    if not isinstance(params, TwoPoolParameters):
+        return None
+    h = history_of(lake, history)
+    if h and h.get("m"):
+        return float(h["m"][-1])
+    return float(new_history(lake)["m"][-1])
 
 
 def fit_of(lake: Mapping[str, Any], fit: Mapping[str, Any] | None) -> Mapping[str, Any] | None:

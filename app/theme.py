@@ -22,6 +22,7 @@ TODAY = "#5b4a8a"
 OBSERVED = "rgba(40,40,40,0.55)"
 BAND_TIPPING = "rgba(31,111,168,0.13)"  # the fitted tipping load's band
 BAND_RECOVERY = "rgba(122,143,28,0.15)"  # the fitted recovery load's band
+SEDIMENT = "#7a5a32"  # the mud: sediment P of a two-pool lake
 
 #: background of each regime on the regime map
 REGIME_FILL = {

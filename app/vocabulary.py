@@ -309,3 +309,58 @@ def warning_sign_line(name: str, tau: float, p_value: float | None, meeting: boo
     if tau > 0:
         return f"No clear warning: {what} grew a little, within what chance alone gives."
     return f"No warning: {what} did not grow."
+
+
+# --------------------------------------------------------------------------
+# the two-pool lake: water and mud (the sediment legacy)
+# --------------------------------------------------------------------------
+TERMS.update(
+    {
+        "water_p": ("Water P", "Phosphorus in the water"),
+        "sediment_p": ("Mobile sediment P", "Phosphorus in the mud"),
+        "sediment_short": ("Sediment P [kg]", "P in the mud (kg)"),
+        "clear_after": ("clear water after", "clear water after"),
+        "lag_column": ("Lag from the sediment [yr]", "Extra years because of the mud"),
+        "one_box": ("one-box lake", "the water alone"),
+        "two_pool": ("two-pool lake", "water and mud"),
+    }
+)
+
+
+def _kg(v: float) -> str:
+    return f"{v:,.0f} kg"
+
+
+def sediment_sentence(p_kg: float, tp: float, m_kg: float, m_target: float | None, meeting: bool) -> str:
+    """Water P and sediment P now, and where the sediment P is heading, e.g. for the readout."""
+    where = ""
+    if m_target is not None and abs(m_target - m_kg) > 0.02 * max(m_target, 1e-12):
+        verb = "draining towards" if m_target < m_kg else "filling towards"
+        where = f", {verb} about {_kg(m_target)}"
+    if meeting:
+        return (
+            f"Phosphorus in the water {_kg(p_kg)} ({tp:.0f} µg/L); in the mud {_kg(m_kg)}{where}. "
+            "The mud keeps feeding the water."
+        )
+    return f"Water P {_kg(p_kg)} (TP {tp:.0f} µg/L); mobile sediment P {_kg(m_kg)}{where}."
+
+
+def lag_sentence(change_year: int, lag: int | None, year_now: int, meeting: bool, max_years: int) -> str:
+    """The years from the last inflow change (or removal) until clear water, e.g. under the time panel."""
+    inflow = term("inflow_lower", meeting)
+    head = f"Since the {inflow} changed in year {change_year}"
+    if lag is None:
+        return f"{head}: not clear within {max_years:,} years at this {inflow}."
+    if lag == 0:
+        return f"{head}: clear water at once."
+    when = change_year + lag
+    tense = "came" if when <= year_now else "comes"
+    return f"{head}: clear water {tense} after {lag} year{'s' if lag != 1 else ''}, in year {when}."
+
+
+TERMS.update(
+    {
+        "burial_axis": ("Burial b [yr⁻¹]", "Share of the mud's P buried for good a year"),
+        "recycling_rate_axis": ("Recycling rate r [yr⁻¹]", "Most of the mud's P released a year"),
+    }
+)

@@ -8,6 +8,8 @@
     'plan-prec-scenario': 'Scenario whose variability is used',
     'plan-saved-list': 'Saved plans',
     'map-axis': 'Lake property up the side of the map',
+    'lake-model': 'Lake model',
+    'plan-both-models': 'Run under both lake models',
   };
   function set(el, name, value) { if (el.getAttribute(name) !== value) { el.setAttribute(name, value); } }
   function names() {

@@ -64,7 +64,6 @@ class SafetyMargin:
     percent: float | None
 
 
-
 def removal_needed(
     params: LakeParameters,
     load: float,
@@ -217,5 +216,3 @@ def read_state(params: LakeParameters, load: float, p: float, settle_tol: float 
         label = "single"
     settled = abs(p - attractor.p) <= settle_tol * max(attractor.p, 1e-12 * params.m)
     return StateReading(p=p, load=load, attractor=attractor, label=label, settled=settled, separatrix_p=sep)
-
-

@@ -71,7 +71,7 @@ from typing import Any, ClassVar, Literal
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from .params import DimensionlessLake, LakeParameters, recycling_fraction
+from .params import LakeParameters, recycling_fraction
 from .validation import FieldError, NumberFields, number
 
 __all__ = ["MODEL_NAMES", "ModelName", "TwoPoolParameters", "check_map_limits", "map_limits_message"]
@@ -220,19 +220,6 @@ class TwoPoolParameters(NumberFields):
             recycling_max=self.r * sediment_p_kg,
             recycling_half=self.m,
             recycling_exponent=self.q,
-        )
-
-    def to_dimensionless(self) -> DimensionlessLake:
-        """Refused: the one-box dimensionless lake ``(b, q)`` has no two-pool counterpart.
-
-        Raises
-        ------
-        ValueError
-            Always, with a message for the user; callers that describe a
-            one-box lake by its dimensionless ``b`` must check the model first.
-        """
-        raise ValueError(
-            "the two-pool lake has no one-box dimensionless form (b = s m / r); this view supports one-box lakes only"
         )
 
     # JSON ---------------------------------------------------------------------

@@ -8,37 +8,51 @@ from functools import lru_cache
 from typing import Any
 
 from dash import Dash, Input, Output, Patch, State, ctx, no_update
-from turnback.model.equilibrium import LakeAnalysis, analyze, folds
+from turnback.model.equilibrium import LakeAnalysis, analyze
+from turnback.model.lake_models import AnyLakeParameters, lake_folds
 from turnback.model.outlook import lake_outlook
-from turnback.model.params import LakeParameters, LakeProfile
+from turnback.model.params import LakeProfile
+from turnback.model.sediment_lag import two_pool_outlook
+from turnback.model.two_pool import TwoPoolParameters
+from turnback.model.two_pool_equilibrium import TwoPoolAnalysis, analyze_two_pool
 
 from ... import ids
 from ...stores import fit_of, history_of, lake_from_store, new_history, same_lake
 from ...theme import is_meeting
-from .figures import append_patches, equilibrium_figure, history_patches, time_figure
+from ...vocabulary import lag_sentence
+from .figures import append_patches, equilibrium_figure, history_patches, lag_patch, time_figure
 from .history import (
     MAX_HISTORY,
+    MAX_LAG_YEARS,
     MAX_SETTLE_YEARS,
     MAX_YEARS_PER_CHANGE,
     advance,
     appended,
     from_tail,
+    last_change,
     remove_p,
     restart,
     tail_of,
 )
 from .layout import slider_config
 from .readout import build_readout, fit_rows, removal_text
-from .settings import FIELD_RULES, check_settings
+from .settings import FIELD_RULES, TWO_POOL_RULES, check_model_settings
 
 Lake = Mapping[str, Any]
 
 
-def on_settings(values: Mapping[str, Any], lake: Lake | None) -> dict[str, Any]:
-    """A settings field changed: accept the new lake or say what is wrong, keeping the old one."""
+def on_settings(
+    values: Mapping[str, Any],
+    lake: Lake | None,
+    pool_values: Mapping[str, Any] | None = None,
+    model: str | None = None,
+) -> dict[str, Any]:
+    """A settings field or the lake model changed: accept the new lake or say what is wrong, keeping the old one."""
     name = lake["profile"]["name"] if lake else "Lake"
-    new_lake, messages = check_settings(dict(values), name)
-    out: dict[str, Any] = {"lake": no_update, "messages": messages, "status": ""}
+    new_lake, messages, pool_messages = check_model_settings(
+        "two-pool" if model == "two-pool" else "one-box", dict(values), dict(pool_values or {}), name
+    )
+    out: dict[str, Any] = {"lake": no_update, "messages": messages, "pool_messages": pool_messages, "status": ""}
     if new_lake is None:
         out["status"] = "Not applied: fix the field marked in red. The lake shown is the last valid one."
     elif not (lake and same_lake(new_lake, lake)):
@@ -46,15 +60,31 @@ def on_settings(values: Mapping[str, Any], lake: Lake | None) -> dict[str, Any]:
     return out
 
 
-def field_values(lake: Lake) -> dict[str, str]:
-    """The settings fields' text for a lake."""
+def field_values(lake: Lake) -> dict[str, Any]:
+    """The settings fields' text for a lake (a two-pool lake leaves the one-box fields as they are)."""
     params, profile = lake_from_store(lake)
-    values = params.to_dict() | {
+    own = {} if isinstance(params, TwoPoolParameters) else params.to_dict()  # m and q are in both models
+    values = own | {
         "area_km2": profile.area_km2,
         "mean_depth_m": profile.mean_depth_m,
         "load_kg_yr": profile.load_kg_per_yr,
     }
-    return {f: f"{values[f]:.6g}" for f in FIELD_RULES}
+    return {f: f"{values[f]:.6g}" if f in values else no_update for f in FIELD_RULES}
+
+
+def pool_field_values(lake: Lake) -> dict[str, Any]:
+    """The two-pool fields' text for a two-pool lake (left as they are for a one-box lake)."""
+    params, _ = lake_from_store(lake)
+    if not isinstance(params, TwoPoolParameters):
+        return {f: no_update for f in TWO_POOL_RULES}
+    values = params.to_dict()
+    return {f: f"{values[f]:.6g}" for f in TWO_POOL_RULES}
+
+
+def on_model(model: str | None) -> dict[str, Any]:
+    """Show the chosen lake model's fields."""
+    two = model == "two-pool"
+    return {"one_box": {"display": "none"} if two else {}, "two_pool": {} if two else {"display": "none"}}
 
 
 def on_lake(lake: Lake, meeting_value: list[str] | None, history: Any, fit_data: Any) -> dict[str, Any]:
@@ -77,7 +107,7 @@ def on_lake(lake: Lake, meeting_value: list[str] | None, history: Any, fit_data:
         )
     return {
         "history": no_update if shown is history else shown,
-        "tail": tail_of(shown),
+        "tail": tail_of(shown, last_change(shown, params)),
         "note": note,
         "equilibrium": equilibrium_figure(
             analysis,
@@ -92,6 +122,8 @@ def on_lake(lake: Lake, meeting_value: list[str] | None, history: Any, fit_data:
         "slider": {**slider, "value": shown["load"][-1]},
         "title": profile.name,
         "fields": field_values(lake),
+        "pool_fields": pool_field_values(lake),
+        "model": "two-pool" if isinstance(params, TwoPoolParameters) else "one-box",
     }
 
 
@@ -113,10 +145,10 @@ def _removal_kg(value: Any) -> float | None:
     return kg if math.isfinite(kg) and kg >= 0 else None
 
 
-def big_step(which: str, load_now: float, params: LakeParameters, profile: LakeProfile, top: float) -> float | None:
+def big_step(which: str, load_now: float, params: AnyLakeParameters, profile: LakeProfile, top: float) -> float | None:
     """The load of a big step: ±10 % of today's load, just past the tipping load, just under the recovery load."""
     today = profile.load_kg_per_yr
-    fs = folds(params)
+    fs = lake_folds(params)
     if which == "down":
         return max(0.0, load_now - 0.1 * today)
     if which == "up":
@@ -132,8 +164,13 @@ STEP_KEYS = {v: k for k, v in ids.STEP_BUTTONS.items()}
 
 
 @lru_cache(maxsize=32)
-def analysis_of(params: LakeParameters, n_points: int) -> LakeAnalysis:
-    """The engine's analysis of a lake, worked out once per lake (a view toggle redraws without redoing it)."""
+def analysis_of(params: AnyLakeParameters, n_points: int) -> LakeAnalysis | TwoPoolAnalysis:
+    """The engine's analysis of a lake, worked out once per lake (a view toggle redraws without redoing it).
+
+    A two-pool lake's curve is traced along the water P (:func:`analyze_two_pool`).
+    """
+    if isinstance(params, TwoPoolParameters):
+        return analyze_two_pool(params, n_points=n_points)
     return analyze(params, n_points=n_points)
 
 
@@ -151,7 +188,12 @@ def step_session(
     if trigger == ids.RESET_BUTTON:
         return restart(history), "", ""
     if trigger == ids.SETTLE_BUTTON:
-        out = lake_outlook(params, history["load"][-1], history["p"][-1], max_years=MAX_SETTLE_YEARS)
+        if isinstance(params, TwoPoolParameters):
+            out: Any = two_pool_outlook(
+                params, history["load"][-1], history["p"][-1], history["m"][-1], max_years=MAX_SETTLE_YEARS
+            )
+        else:
+            out = lake_outlook(params, history["load"][-1], history["p"][-1], max_years=MAX_SETTLE_YEARS)
         if out.years == 0:
             return None, "The lake has already settled at this inflow.", ""
         run = out.years or MAX_SETTLE_YEARS
@@ -207,37 +249,53 @@ def on_action(
         trigger, load = ids.LOAD_SLIDER, new_load
     new, years_msg, removal_msg = step_session(trigger, load, short, lake, years_value, removal_value)
     if new is not None and short is not None:
+        params, _ = lake_from_store(lake)
+        # the last inflow change (or removal) and its years until clear water travel with the tail
+        change = last_change(new, params) or tail.get("change")
         if trigger == ids.RESET_BUTTON or tail["n"] + len(new["year"]) - 1 > MAX_HISTORY:
             if trigger != ids.RESET_BUTTON:
                 new = restart(new) if len(new["year"]) > MAX_HISTORY else new
                 years_msg = f"The history reached {MAX_HISTORY:,} points and started again from the lake now."
             eq, tf = history_patches(new, lake)
-            out.update(history=new, tail=tail_of(new), equilibrium=eq, time=tf)
+            out.update(history=new, tail=tail_of(new, last_change(new, params)), equilibrium=eq, time=tf)
         else:
             added = appended(new)
             store = Patch()
-            for k in ("year", "load", "p", "event"):
+            for k in added:
                 store[k].extend(added[k])
             first = int(tail.get("first", tail["year"]))
             eq, tf = append_patches(added, lake, (first, int(new["year"][-1])))
-            new_tail = tail_of(new) | {"n": tail["n"] + len(added["year"]), "first": first}
+            new_tail = tail_of(new, change) | {"n": tail["n"] + len(added["year"]), "first": first}
             out.update(history=store, tail=new_tail, equilibrium=eq, time=tf)
     return out | {"years_message": years_msg, "removal_message": removal_msg}
 
 
 def on_history(tail: Any, meeting_value: list[str] | None, lake: Lake, fit_data: Any) -> dict[str, Any]:
-    """Readout and removal need for the current state (the tail of the history)."""
+    """Readout, removal need and the years until clear water for the current state (the tail of the history)."""
     if not tail or history_of(lake, {"lake_key": tail.get("lake_key")}) is None:
-        return {"readout": no_update, "needed": no_update, "suggestion": no_update}
+        return {"readout": no_update, "needed": no_update, "suggestion": no_update, "lag": no_update, "time": no_update}
     params, profile = lake_from_store(lake)
     load, p_now = tail["load"], tail["p"]
+    m_now = tail.get("m") if isinstance(params, TwoPoolParameters) else None
+    if isinstance(params, TwoPoolParameters) and m_now is None:
+        return {"readout": no_update, "needed": no_update, "suggestion": no_update, "lag": no_update, "time": no_update}
     meeting = is_meeting(meeting_value)
-    rows = build_readout(params, profile, analysis_of(params, 10), load, p_now, meeting=meeting)
+    rows = build_readout(params, profile, analysis_of(params, 10), load, p_now, meeting=meeting, m_now=m_now)
     fit = fit_of(lake, fit_data)
     if fit:
         rows += fit_rows(dict(fit), meeting)
     text, kg = removal_text(params, profile, load, p_now)
-    return {"readout": rows, "needed": text, "suggestion": math.ceil(kg) if kg > 0 else 0}
+    change = tail.get("change")
+    lag_words = ""
+    if change is not None:
+        lag_words = lag_sentence(int(change["year"]), change.get("lag"), int(tail["year"]), meeting, MAX_LAG_YEARS)
+    return {
+        "readout": rows,
+        "needed": text,
+        "suggestion": math.ceil(kg) if kg > 0 else 0,
+        "lag": lag_words,
+        "time": lag_patch(change, meeting),
+    }
 
 
 def on_meeting(value: list[str] | None) -> dict[str, str]:
@@ -250,12 +308,24 @@ def register(app: Dash) -> None:
         output={
             "lake": Output(ids.LAKE_STORE, "data"),
             "messages": {f: Output(ids.FIELDS[f][1], "children") for f in FIELD_RULES},
+            "pool_messages": {f: Output(ids.TWO_POOL_FIELDS[f][1], "children") for f in TWO_POOL_RULES},
             "status": Output(ids.SETTINGS_STATUS, "children"),
         },
-        inputs={"values": {f: Input(ids.FIELDS[f][0], "value") for f in FIELD_RULES}},
+        inputs={
+            "values": {f: Input(ids.FIELDS[f][0], "value") for f in FIELD_RULES},
+            "pool_values": {f: Input(ids.TWO_POOL_FIELDS[f][0], "value") for f in TWO_POOL_RULES},
+            "model": Input(ids.LAKE_MODEL, "value"),
+        },
         state={"lake": State(ids.LAKE_STORE, "data")},
         prevent_initial_call=True,
     )(on_settings)
+    app.callback(
+        output={
+            "one_box": Output(ids.ONE_BOX_FIELDS_BOX, "style"),
+            "two_pool": Output(ids.TWO_POOL_FIELDS_BOX, "style"),
+        },
+        inputs={"model": Input(ids.LAKE_MODEL, "value")},
+    )(on_model)
     app.callback(
         output={
             "history": Output(ids.HISTORY_STORE, "data"),
@@ -266,6 +336,8 @@ def register(app: Dash) -> None:
             "slider": {k: Output(ids.LOAD_SLIDER, k) for k in ("max", "step", "marks", "value")},
             "title": Output(ids.LAKE_TITLE, "children"),
             "fields": {f: Output(ids.FIELDS[f][0], "value") for f in FIELD_RULES},
+            "pool_fields": {f: Output(ids.TWO_POOL_FIELDS[f][0], "value") for f in TWO_POOL_RULES},
+            "model": Output(ids.LAKE_MODEL, "value"),
         },
         inputs={"lake": Input(ids.LAKE_STORE, "data"), "meeting_value": Input(ids.MEETING_TOGGLE, "value")},
         state={"history": State(ids.HISTORY_STORE, "data"), "fit_data": State(ids.FIT_STORE, "data")},
@@ -302,8 +374,11 @@ def register(app: Dash) -> None:
             "readout": Output(ids.READOUT, "children"),
             "needed": Output(ids.REMOVAL_NEEDED, "children"),
             "suggestion": Output(ids.REMOVAL_INPUT, "value"),
+            "lag": Output(ids.TIME_LAG, "children"),
+            "time": Output(ids.TIME_GRAPH, "figure", allow_duplicate=True),
         },
         inputs={"tail": Input(ids.HISTORY_TAIL, "data"), "meeting_value": Input(ids.MEETING_TOGGLE, "value")},
         state={"lake": State(ids.LAKE_STORE, "data"), "fit_data": State(ids.FIT_STORE, "data")},
+        prevent_initial_call=True,
     )(on_history)
     app.callback(Output(ids.SETTINGS_PANEL, "style"), Input(ids.MEETING_TOGGLE, "value"))(on_meeting)

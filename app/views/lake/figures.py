@@ -18,8 +18,9 @@ from turnback.model.clarity import OECD_CLASSES, expected_secchi
 from turnback.model.equilibrium import LakeAnalysis
 from turnback.model.params import LakeProfile
 from turnback.model.trophic_coefficients import OECD_1982
+from turnback.model.two_pool_equilibrium import TwoPoolAnalysis
 
-from ...stores import lake_from_store
+from ...stores import is_two_pool, lake_from_store
 from ...theme import (
     BAND_RECOVERY,
     BAND_TIPPING,
@@ -29,6 +30,7 @@ from ...theme import (
     FOLD,
     HISTORY,
     OBSERVED,
+    SEDIMENT,
     SEPARATRIX,
     TODAY,
     TURBID,
@@ -42,10 +44,11 @@ EQ_HISTORY = EQ_TRACES.index("history")
 EQ_CURRENT = EQ_TRACES.index("current")
 EQ_OBSERVED = EQ_TRACES.index("observed")
 
-#: fixed trace order of the time figure
-TIME_TRACES = ("tp", "load", "observed_tp", "observed_load")
+#: fixed trace order of the time figure (the sediment trace is empty for a one-box lake)
+TIME_TRACES = ("tp", "load", "observed_tp", "observed_load", "sediment")
 TIME_TP = 0
 TIME_LOAD = 1
+TIME_SEDIMENT = 4
 
 
 def _labels(meeting: bool) -> dict[str, str]:
@@ -79,7 +82,7 @@ def history_xy(history: Mapping[str, Sequence[float]], profile: LakeProfile) -> 
 
 
 def equilibrium_figure(
-    analysis: LakeAnalysis,
+    analysis: LakeAnalysis | TwoPoolAnalysis,
     profile: LakeProfile,
     history: Mapping[str, Any],
     *,
@@ -89,6 +92,9 @@ def equilibrium_figure(
     fit: Mapping[str, Any] | None = None,
 ) -> go.Figure:
     """Equilibrium curve (load against TP) with folds, bistable band, history and current state.
+
+    A two-pool lake's curve is drawn against its water TP (the sediment P at
+    each state is in the hover text of the time panel, not on this figure).
 
     With ``fit`` (the monitoring fit of this lake) the observed years are drawn
     as points and the 90 % bootstrap intervals of both folds as bands; a fold
@@ -315,10 +321,25 @@ def time_figure(
     meeting: bool = False,
     fit: Mapping[str, Any] | None = None,
 ) -> go.Figure:
-    """Lake TP and load against year, for the same history (and the observed record of a fitted lake)."""
+    """Lake TP and load against year, for the same history (and the observed record of a fitted lake).
+
+    A two-pool lake's history (one with sediment P ``m``) draws its sediment
+    P [kg] on a second axis (right) of the TP panel, so the mud draining
+    after a cut shows beside the water; every series is named above its
+    panel, outside the plot area (left: TP, right: sediment P).
+    """
     lab = _labels(meeting)
     sty = _style(meeting)
-    fig = make_subplots(rows=2, cols=1, shared_xaxes=True, row_heights=[0.6, 0.4], vertical_spacing=0.16)
+    two = "m" in history
+    load_row = 2
+    fig = make_subplots(
+        rows=2,
+        cols=1,
+        shared_xaxes=True,
+        row_heights=[0.6, 0.4],
+        vertical_spacing=0.16,
+        specs=[[{"secondary_y": two}], [{}]],
+    )
     hxy = history_xy(history, profile)
     fig.add_trace(
         go.Scatter(
@@ -342,43 +363,99 @@ def time_figure(
             name=lab["load"],
             hovertemplate="year %{x}: %{y:.0f} kg/yr<extra></extra>",
         ),
-        row=2,
+        row=load_row,
         col=1,
     )
     obs = (fit or {}).get("observed") or {"year": [], "load": [], "tp": []}
     grey = {"size": sty["marker"] // 2, "color": OBSERVED, "symbol": "square"}
     fig.add_trace(go.Scatter(x=obs["year"], y=obs["tp"], mode="markers", name="observed TP", marker=grey), row=1, col=1)
     fig.add_trace(
-        go.Scatter(x=obs["year"], y=obs["load"], mode="markers", name="observed load", marker=grey), row=2, col=1
+        go.Scatter(x=obs["year"], y=obs["load"], mode="markers", name="observed load", marker=grey),
+        row=load_row,
+        col=1,
+    )
+    fig.add_trace(
+        go.Scatter(
+            x=hxy["year"] if two else [],
+            y=list(history["m"]) if two else [],
+            mode="lines+markers",
+            name=term("sediment_short", meeting),
+            line={"color": SEDIMENT, "width": sty["line"] - 1, "dash": "dash"},
+            marker={"size": sty["marker"] // 3, "maxdisplayed": 60, "symbol": "square"},
+            hovertemplate="year %{x}: %{y:,.0f} kg<extra></extra>",
+        ),
+        row=1,
+        col=1,
+        **({"secondary_y": True} if two else {}),
     )
     fig.update_layout(
         template="plotly_white",
         font={"size": sty["font"] - 2},
-        margin={"l": 60, "r": 20, "t": 24, "b": 45},
+        margin={"l": 60, "r": 70 if two else 20, "t": 24, "b": 45},
         autosize=True,
         showlegend=False,
         uirevision="time",
     )
-    # each panel is named in its top-left corner (two stacked axis titles collide on a short panel)
+    # each series is named above its panel's corner (two stacked axis titles collide on a short panel)
     fig.update_yaxes(rangemode="tozero", nticks=3)
-    for row, text in ((1, lab["tp"]), (2, lab["load"])):
+    if two:
+        fig.update_yaxes(showgrid=False, tickfont={"color": SEDIMENT}, row=1, col=1, secondary_y=True)
+    load_axis = "y3" if two else "y2"
+    names = [(0.0, "left", "y", lab["tp"], "#444"), (0.0, "left", load_axis, lab["load"], "#444")]
+    if two:
+        names.append((1.0, "right", "y", "- - " + term("sediment_short", meeting), SEDIMENT))
+    for x, anchor, axis, text, colour in names:
         fig.add_annotation(
-            x=0.0,
+            x=x,
             xref="paper",
-            xanchor="left",
+            xanchor=anchor,
             y=1.0,
-            yref=f"y{'' if row == 1 else row} domain",
+            yref=f"{axis} domain",
             yanchor="bottom",
             text=text,
             showarrow=False,
-            font={"size": sty["font"] - 4, "color": "#444"},
+            font={"size": sty["font"] - 4, "color": colour},
         )
-    fig.update_xaxes(title_text=lab["year"], row=2, col=1)
+    fig.update_xaxes(title_text=lab["year"], row=load_row, col=1)
     years = list(hxy["year"]) + list(obs["year"])
     first, last = min(years), max(years)
     if last - first < 20:  # a short history: a readable stretch of years, not one point on an axis from -1 to 1
         fig.update_xaxes(range=[first - 0.5, first + 20.5], autorange=False)
     return fig
+
+
+def lag_patch(change: Mapping[str, Any] | None, meeting: bool) -> Patch:
+    """A patch that marks, across the time panel, the year clear water came (or comes) after the last change.
+
+    ``change`` is the history tail's ``{"year", "lag"}``; without a lag
+    (no change, no clear water within reach) the mark is removed.
+    """
+    tf = Patch()
+    if not change or change.get("lag") in (None, 0):
+        tf["layout"]["shapes"] = []
+        return tf
+    when = int(change["year"]) + int(change["lag"])
+    tf["layout"]["shapes"] = [
+        {
+            "type": "line",
+            "xref": "x",
+            "x0": when,
+            "x1": when,
+            "yref": "paper",
+            "y0": 0.0,
+            "y1": 1.0,
+            "line": {"color": CLEAR, "width": 2, "dash": "dot"},
+            "label": {
+                "text": f"{term('clear_after', meeting)} {int(change['lag'])} yr",
+                "textposition": "end",
+                "xanchor": "left",
+                "yanchor": "top",
+                "textangle": 0,
+                "font": {"color": CLEAR, "size": sizes(meeting).font - 4},
+            },
+        }
+    ]
+    return tf
 
 
 def history_patches(history: Mapping[str, Any], lake: Mapping[str, Any]) -> tuple[Patch, Patch]:
@@ -401,10 +478,17 @@ def history_patches(history: Mapping[str, Any], lake: Mapping[str, Any]) -> tupl
     tf["data"][TIME_TP]["y"] = hxy["tp"]
     tf["data"][TIME_LOAD]["x"] = hxy["year"]
     tf["data"][TIME_LOAD]["y"] = hxy["load"]
+    if "m" in history and is_two_pool(lake):
+        tf["data"][TIME_SEDIMENT]["x"] = hxy["year"]
+        tf["data"][TIME_SEDIMENT]["y"] = list(history["m"])
     if len(hxy["year"]) > 1 and hxy["year"][-1] - hxy["year"][0] >= 20:
-        tf["layout"]["xaxis"]["autorange"] = True
-        tf["layout"]["xaxis2"]["autorange"] = True
+        _loose_years(tf, lake)
     return eq, tf
+
+
+def _loose_years(tf: Patch, lake: Mapping[str, Any]) -> None:
+    for axis in ("xaxis", "xaxis2"):
+        tf["layout"][axis]["autorange"] = True
 
 
 def append_patches(added: Mapping[str, Any], lake: Mapping[str, Any], span: tuple[int, int]) -> tuple[Patch, Patch]:
@@ -426,7 +510,9 @@ def append_patches(added: Mapping[str, Any], lake: Mapping[str, Any], span: tupl
     tf["data"][TIME_TP]["y"].extend(hxy["tp"])
     tf["data"][TIME_LOAD]["x"].extend(hxy["year"])
     tf["data"][TIME_LOAD]["y"].extend(hxy["load"])
+    if "m" in added and is_two_pool(lake):
+        tf["data"][TIME_SEDIMENT]["x"].extend(hxy["year"])
+        tf["data"][TIME_SEDIMENT]["y"].extend(list(added["m"]))
     if span[1] - span[0] >= 20:
-        tf["layout"]["xaxis"]["autorange"] = True
-        tf["layout"]["xaxis2"]["autorange"] = True
+        _loose_years(tf, lake)
     return eq, tf

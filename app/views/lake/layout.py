@@ -6,13 +6,17 @@ import math
 from typing import Any
 
 from dash import dcc, html
+from turnback.model.demo import DEMO_PARAMETERS, DEMO_TWO_POOL_PARAMETERS
 from turnback.model.equilibrium import LakeAnalysis
-from turnback.model.params import LakeParameters, LakeProfile
+from turnback.model.lake_models import AnyLakeParameters
+from turnback.model.params import LakeProfile
+from turnback.model.two_pool import TwoPoolParameters
+from turnback.model.two_pool_equilibrium import TwoPoolAnalysis
 
 from ... import ids
 from ...theme import TODAY, both, graph
 from ...vocabulary import term
-from .settings import FIELD_RULES
+from .settings import FIELD_RULES, MODEL_OPTIONS, ONE_BOX_FIELDS, TWO_POOL_RULES
 
 TREATMENT_CAUTION = (
     "Caution: chemical in-lake treatments (for example alum or other P binders, or dredging) need permits "
@@ -26,7 +30,9 @@ def _aria(**attrs: str) -> Any:
     return {f"aria-{k}": v for k, v in attrs.items()}
 
 
-def slider_config(analysis: LakeAnalysis, profile: LakeProfile, meeting: bool = False) -> dict[str, Any]:
+def slider_config(
+    analysis: LakeAnalysis | TwoPoolAnalysis, profile: LakeProfile, meeting: bool = False
+) -> dict[str, Any]:
     """Slider max, step and marks: 0 to about twice the tipping load, with today's load and the thresholds marked.
 
     One arrow-key press moves about 1 % of the range (a round step), so the
@@ -47,15 +53,21 @@ def slider_config(analysis: LakeAnalysis, profile: LakeProfile, meeting: bool = 
         "style": {"color": TODAY, "fontWeight": "600"},
     }
     if analysis.tipping_load is not None:
-        marks[analysis.tipping_load] = {"label": term("tipping", meeting), "style": {"color": "#2d2d2d"}}
+        if abs(analysis.tipping_load - profile.load_kg_per_yr) < 0.08 * top:  # too close to share the track
+            marks[profile.load_kg_per_yr]["label"] = (
+                f"today {profile.load_kg_per_yr:,.0f}\ntipping {analysis.tipping_load:,.0f}"
+            )
+            marks[profile.load_kg_per_yr]["style"] |= {"whiteSpace": "pre-line"}
+        else:
+            marks[analysis.tipping_load] = {"label": term("tipping", meeting), "style": {"color": "#2d2d2d"}}
     if analysis.recovery_load is not None and analysis.recovery_load > 0:
         marks[analysis.recovery_load] = {"label": term("recovery", meeting), "style": {"color": "#2d2d2d"}}
     return {"max": top, "step": step, "marks": marks}
 
 
-def _field(name: str, value: float) -> html.Div:
-    label, unit, *_ = FIELD_RULES[name]
-    input_id, message_id = ids.FIELDS[name]
+def _field(name: str, value: float, two_pool: bool = False) -> html.Div:
+    label, unit, *_ = (TWO_POOL_RULES if two_pool else FIELD_RULES)[name]
+    input_id, message_id = (ids.TWO_POOL_FIELDS if two_pool else ids.FIELDS)[name]
     return html.Div(
         [
             html.Label(f"{label}" + (f" [{unit}]" if unit else ""), htmlFor=input_id),
@@ -74,22 +86,70 @@ def _field(name: str, value: float) -> html.Div:
     )
 
 
-def settings_panel(params: LakeParameters, profile: LakeProfile) -> html.Details:
-    values = params.to_dict() | {
+def settings_panel(params: AnyLakeParameters, profile: LakeProfile) -> html.Details:
+    two = isinstance(params, TwoPoolParameters)
+    # the other model's fields start at the demo lake's values of that model
+    values = (DEMO_PARAMETERS if two else params).to_dict() | {
         "area_km2": profile.area_km2,
         "mean_depth_m": profile.mean_depth_m,
         "load_kg_yr": profile.load_kg_per_yr,
     }
+    pool = (params if two else DEMO_TWO_POOL_PARAMETERS).to_dict()
+    hidden = {"display": "none"}
     return html.Details(
         [
             html.Summary("Lake and model settings"),
+            html.Div(
+                [
+                    html.Span("Lake model", id="lake-model-label", className="field-label"),
+                    dcc.RadioItems(
+                        id=ids.LAKE_MODEL,
+                        options=[{"label": label, "value": value} for value, label in MODEL_OPTIONS.items()],
+                        value="two-pool" if two else "one-box",
+                        className="model-choice",
+                        inline=True,
+                        persistence=True,
+                        persistence_type="session",
+                    ),
+                ],
+                className="field model-field",
+            ),
+            html.Div(
+                [
+                    html.P(
+                        "One box: P[t+1] = P[t] + L − s·P[t] + r·P[t]^q / (m^q + P[t]^q), one step a year.",
+                        className="hint",
+                    ),
+                    html.Div([_field(name, values[name]) for name in ONE_BOX_FIELDS], className="field-grid"),
+                ],
+                id=ids.ONE_BOX_FIELDS_BOX,
+                style=hidden if two else {},
+            ),
+            html.Div(
+                [
+                    html.P(
+                        "Two pools — the mud keeps feeding the water: water P[t+1] = P[t] + L − (s+h)·P[t] + "
+                        "r·M[t]·g(P[t]) and mud P M[t+1] = M[t] + s·P[t] − b·M[t] − r·M[t]·g(P[t]), "
+                        "g(P) = P^q / (m^q + P^q), one step a year (after Carpenter 2005); s + h and b + r at most 1. "
+                        "The mud's burial and recycling rates are rarely known: results depend on them.",
+                        className="hint",
+                    ),
+                    html.Div(
+                        [_field(name, pool[name], two_pool=True) for name in TWO_POOL_RULES], className="field-grid"
+                    ),
+                ],
+                id=ids.TWO_POOL_FIELDS_BOX,
+                style={} if two else hidden,
+            ),
             html.P(
-                "Model: P[t+1] = P[t] + L − s·P[t] + r·P[t]^q / (m^q + P[t]^q), one step a year. "
                 "Press Enter or leave a field to apply it; "
                 "a wrong value is reported here and the last good lake stays.",
                 className="hint",
             ),
-            html.Div([_field(name, values[name]) for name in FIELD_RULES], className="field-grid"),
+            html.Div(
+                [_field(name, values[name]) for name in FIELD_RULES if name not in ONE_BOX_FIELDS],
+                className="field-grid",
+            ),
             html.Div(id=ids.SETTINGS_STATUS, className="settings-status"),
         ],
         id=ids.SETTINGS_PANEL,
@@ -193,7 +253,7 @@ def _load_card(profile: LakeProfile) -> html.Div:
     )
 
 
-def build_view(params: LakeParameters, profile: LakeProfile) -> list[Any]:
+def build_view(params: AnyLakeParameters, profile: LakeProfile) -> list[Any]:
     return [
         html.Main(
             [
@@ -203,6 +263,7 @@ def build_view(params: LakeParameters, profile: LakeProfile) -> list[Any]:
                         _load_card(profile),
                         graph(ids.EQUILIBRIUM_GRAPH, "turnback-equilibria", "graph-equilibrium"),
                         graph(ids.TIME_GRAPH, "turnback-history", "graph-time"),
+                        html.Div(id=ids.TIME_LAG, className="time-lag", role="status", **_aria(live="polite")),
                     ],
                     className="figures",
                 ),

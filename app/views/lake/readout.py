@@ -12,9 +12,13 @@ from typing import Any
 from dash import html
 from turnback.model.clarity import TP_MAX_UG_L, TP_MIN_UG_L, clarity
 from turnback.model.equilibrium import LakeAnalysis
+from turnback.model.lake_models import AnyLakeParameters
 from turnback.model.management import removal_needed, safety_margin
 from turnback.model.outlook import Outlook, lake_outlook
 from turnback.model.params import LakeParameters, LakeProfile
+from turnback.model.sediment_lag import TwoPoolOutlook, two_pool_outlook
+from turnback.model.two_pool import TwoPoolParameters
+from turnback.model.two_pool_equilibrium import TwoPoolAnalysis
 
 from ... import ids
 from ...vocabulary import (
@@ -22,6 +26,7 @@ from ...vocabulary import (
     kg_yr,
     regime_name,
     regime_sentence,
+    sediment_sentence,
     share,
     state_sentence,
     term,
@@ -69,18 +74,39 @@ def headline(outlook: Outlook, profile: LakeProfile, meeting: bool) -> html.Div:
 
 
 def build_readout(
-    params: LakeParameters,
+    params: AnyLakeParameters,
     profile: LakeProfile,
-    analysis: LakeAnalysis,
+    analysis: LakeAnalysis | TwoPoolAnalysis,
     load: float,
     p_now: float,
     meeting: bool = False,
+    m_now: float | None = None,
 ) -> list[html.Div]:
-    """Readout rows: state and direction, clarity, regime, the tipping margin and the recovery need."""
-    outlook = lake_outlook(params, load, p_now)
+    """Readout rows: state and direction, clarity, regime, the tipping margin and the recovery need.
+
+    A two-pool lake (``m_now``: its sediment P [kg]) gets a row with its
+    water P and sediment P, and its outlook runs both pools.
+    """
+    outlook: Outlook
+    extra: list[html.Div] = []
     tp = float(profile.concentration(p_now))
+    if isinstance(params, TwoPoolParameters):
+        if m_now is None:
+            raise ValueError("a two-pool lake's readout needs its sediment P")
+        two: TwoPoolOutlook = two_pool_outlook(params, load, p_now, m_now)
+        outlook = two
+        extra = [
+            html.Div(
+                sediment_sentence(p_now, tp, m_now, two.m_target, meeting),
+                className="readout-row readout-sediment",
+                id=ids.STATE_SEDIMENT,
+            )
+        ]
+    else:
+        outlook = lake_outlook(params, load, p_now)
     rows = [
         headline(outlook, profile, meeting),
+        *extra,
         *clarity_rows(tp, meeting),
         html.Div(regime_sentence(analysis.regime, meeting), className="readout-row", id=ids.REGIME_WORDS),
     ]
@@ -89,7 +115,12 @@ def build_readout(
 
 
 def threshold_rows(
-    params: LakeParameters, profile: LakeProfile, analysis: LakeAnalysis, load: float, p_now: float, meeting: bool
+    params: AnyLakeParameters,
+    profile: LakeProfile,
+    analysis: LakeAnalysis | TwoPoolAnalysis,
+    load: float,
+    p_now: float,
+    meeting: bool,
 ) -> list[html.Div]:
     """The tipping margin and what recovery needs, in the chosen register."""
     today = profile.load_kg_per_yr
@@ -101,7 +132,7 @@ def threshold_rows(
         )
         return [html.Div(words, className="readout-row", id=ids.TIPPING_WORDS)]
     rows = []
-    sm = safety_margin(params, load, analysis.folds)
+    sm = safety_margin(params, load, analysis.folds)  # type: ignore[arg-type]  # uses only the folds
     assert sm.kg_per_yr is not None
     inflow = term("inflow_lower", meeting)
     if sm.kg_per_yr >= 0:
@@ -128,6 +159,8 @@ def threshold_rows(
                 id=ids.RECOVERY_WORDS,
             )
         )
+        return rows
+    if not isinstance(params, LakeParameters):  # a two-pool lake is never irreversible (burial > 0)
         return rows
     need0 = removal_needed(params, max(load, 0.0), p_now=None, profile=profile)
     extra = ""
@@ -208,8 +241,19 @@ def clarity_rows(tp: float, meeting: bool = False) -> list[html.Div]:
     return rows
 
 
-def removal_text(params: LakeParameters, profile: LakeProfile, load: float, p_now: float) -> tuple[str, float]:
-    """Plain statement of the removal needed now, and the suggested amount [kg]."""
+def removal_text(params: AnyLakeParameters, profile: LakeProfile, load: float, p_now: float) -> tuple[str, float]:
+    """Plain statement of the removal needed now, and the suggested amount [kg].
+
+    A two-pool lake gets no amount: where a removal from the water lands
+    depends on the mud too (the dividing line is a curve in water and mud
+    P), and the mud keeps feeding the water afterwards.
+    """
+    if isinstance(params, TwoPoolParameters):
+        return (
+            "With phosphorus in the mud, taking P out of the water helps only for a while: the mud keeps "
+            "feeding the water. No amount is suggested; try one and watch the lake and its mud.",
+            0.0,
+        )
     need = removal_needed(params, load, p_now=p_now, profile=profile)
     if need.status == "needed":
         assert need.ug_l is not None

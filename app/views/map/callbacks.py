@@ -3,16 +3,19 @@
 from __future__ import annotations
 
 from collections.abc import Mapping
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
 from dash import Dash, Input, Output, State, no_update
 from turnback.model.regime_map import RegimeMap, regime_map
+from turnback.model.two_pool import TwoPoolParameters
+from turnback.model.two_pool_regime_map import TwoPoolRegimeMap, two_pool_regime_map
 
 from ... import ids
 from ...stores import fit_of, history_of, lake_from_store
 from ...theme import is_meeting
-from .figures import regime_map_figure
+from .figures import TWO_POOL_AXIS, regime_map_figure, two_pool_view
 
 AXES = ("loss_rate", "recycling_max")
 
@@ -57,9 +60,20 @@ def on_map(
     params, profile = lake_from_store(lake)
     h = history_of(lake, history)
     load = h["load"][-1] if h else profile.load_kg_per_yr
+    meeting = is_meeting(meeting_value)
+    if isinstance(params, TwoPoolParameters):
+        tmap = _two_pool_map(params, TWO_POOL_AXIS.get(axis, "burial"))
+        view = two_pool_view(tmap)
+        if meeting:
+            note = f"This lake, with its mud, at its inflow now, {load:,.0f} kg/yr."
+        else:
+            note = (
+                f"This two-pool lake: {tmap.axis.replace('_', ' ')} {view.lake_parameter:.4g} yr⁻¹ at a load of "
+                f"{load:,.0f} kg/yr (fold curves by continuation). {tmap.message}"
+            )
+        return regime_map_figure(view, load_now=load, meeting=meeting), note
     rmap = regime_map(params, axis=axis if axis in AXES else "loss_rate")  # type: ignore[arg-type]
     cloud = None
-    meeting = is_meeting(meeting_value)
     if meeting:
         note = f"This lake at its inflow now, {load:,.0f} kg/yr."
     else:
@@ -69,6 +83,12 @@ def on_map(
         cloud, more = cloud_note(rmap, np.asarray(own["cloud"], dtype=float), load, meeting)
         note += more
     return regime_map_figure(rmap, load_now=load, cloud=cloud, meeting=meeting), note
+
+
+@lru_cache(maxsize=16)
+def _two_pool_map(params: TwoPoolParameters, axis: str) -> TwoPoolRegimeMap:
+    """The two-pool regime map (continuation, about a second), once per lake and axis."""
+    return two_pool_regime_map(params, axis=axis)  # type: ignore[arg-type]
 
 
 def register(app: Dash) -> None:

@@ -3,17 +3,71 @@
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import plotly.graph_objects as go
+from numpy.typing import NDArray
 from turnback.model.regime_map import RegimeMap
+from turnback.model.two_pool_regime_map import TwoPoolRegimeMap
 
 from ...theme import BISTABLE, CLEAR, CURRENT, FOLD, REGIME_FILL, TURBID, load_axis_title, sizes
 from ...vocabulary import REGIME_SHORT, term
 
+#: the map's axis choice -> the two-pool parameter it stands for (P lost for good; P the mud releases)
+TWO_POOL_AXIS = {"loss_rate": "burial", "recycling_max": "recycling_rate"}
+
+
+@dataclass(frozen=True)
+class _Cusp:
+    load: float
+    parameter: float
+
+
+@dataclass(frozen=True)
+class _Curve:
+    load: NDArray[np.float64]
+    parameter: NDArray[np.float64]
+
+
+@dataclass(frozen=True)
+class TwoPoolMapView:
+    """A :class:`TwoPoolRegimeMap` in the shape :func:`regime_map_figure` draws (bands as (regime, lo, hi))."""
+
+    axis: str
+    parameter_range: tuple[float, float]
+    tipping: _Curve
+    recovery: _Curve
+    fold_load: NDArray[np.float64]
+    fold_parameter: NDArray[np.float64]
+    cusp: _Cusp | None
+    bands: tuple[tuple[str, float, float], ...]
+    lake_parameter: float
+
+
+def two_pool_view(tmap: TwoPoolRegimeMap) -> TwoPoolMapView:
+    """The two-pool map's fold curves, wedge, cusp and bands for :func:`regime_map_figure`."""
+    tip, rec = tmap.tipping, tmap.recovery
+    cusp = _Cusp(load=tmap.cusps[0][1], parameter=tmap.cusps[0][0]) if tmap.cusps else None
+    return TwoPoolMapView(
+        axis=tmap.axis,
+        parameter_range=tmap.parameter_range,
+        tipping=_Curve(tip.load, tip.parameter),
+        recovery=_Curve(rec.load, rec.parameter),
+        fold_load=np.concatenate([tip.load, rec.load[::-1]]),
+        fold_parameter=np.concatenate([tip.parameter, rec.parameter[::-1]]),
+        cusp=cusp,
+        bands=tuple((reg, lo, hi) for lo, hi, reg in tmap.bands),
+        lake_parameter=float(getattr(tmap.params, tmap.axis)),
+    )
+
+
+_AXIS_TERMS = {"loss_rate": "loss_rate_axis", "recycling_max": "recycling_axis"}
+
 
 def regime_map_figure(
-    rmap: RegimeMap,
+    rmap: RegimeMap | Any,
     *,
     load_now: float,
     cloud: tuple[Sequence[float], Sequence[float]] | None = None,
@@ -22,7 +76,7 @@ def regime_map_figure(
     """The (load, parameter) plane: regime bands, fold curves, the bistable wedge, the lake and its fitted cloud."""
     sz = sizes(meeting)
     sty = {"font": sz.font, "line": sz.line, "marker": sz.marker}
-    axis_title = term("loss_rate_axis" if rmap.axis == "loss_rate" else "recycling_axis", meeting)
+    axis_title = term(_AXIS_TERMS.get(rmap.axis, f"{rmap.axis}_axis"), meeting)
     fig = go.Figure()
     lo_p, hi_p = rmap.parameter_range
     loads = np.concatenate([rmap.tipping.load, rmap.recovery.load, [load_now, 0.0]])

@@ -31,6 +31,8 @@ from ...background import (
 )
 from ...stores import comparison_from_store, comparison_to_store, scenarios_of, state_now
 from ...theme import is_meeting
+from ..lake.settings import FIELD_RULES, TWO_POOL_RULES
+from .both_models import both_columns, other_lake, other_results, other_to_store, run_other, side_by_side
 from .errors import scenario_words
 from .export import export
 from .figures import empty_figure, outcome_table, result_figures, table_columns
@@ -101,8 +103,15 @@ def run_plan(
     *,
     folder: Path,
     fit: Store = None,
+    both: list[str] | None = None,
+    values: Mapping[str, Any] | None = None,
+    pool_values: Mapping[str, Any] | None = None,
 ) -> tuple[Any, str]:
-    """Run every scenario of the plan on the current lake; runs as a background callback."""
+    """Run every scenario of the plan on the current lake; runs as a background callback.
+
+    With ``both`` checked, the same scenarios also run on the other model's
+    lake from the lake settings (``values``, ``pool_values``), side by side.
+    """
     token = (request or {}).get("token")
     _, load_now, _ = state_now(lake, history)
     scenarios = with_baseline(scenarios_of(plan), load_now)
@@ -112,10 +121,24 @@ def run_plan(
         the_plan = Plan(plan_lake(lake, history, fit=fit), tuple(scenarios))
     except ValueError as exc:
         return no_update, f"Not run: {scenario_words(exc, scenarios)}. The previous results are kept."
+    other = None
+    if both:
+        other, why = other_lake(the_plan.lake, values or {}, pool_values or {})
+        if other is None:
+            return no_update, f"Not run: {why}. The previous results are kept."
     progress = ProgressReporter(set_progress)
     progress.show(0, "starting")
+    share = 0.5 if other is not None else 1.0
+
+    def first(f: float, msg: str) -> None:
+        progress.fraction(share * f, msg)
+
+    def second(f: float, msg: str) -> None:
+        progress.fraction(0.5 + 0.5 * f, msg)
+
     try:
-        comp = compare_plan(the_plan, progress=progress.fraction, cancel=cancel_hook(folder, token), sample_paths=0)
+        comp = compare_plan(the_plan, progress=first, cancel=cancel_hook(folder, token), sample_paths=0)
+        comp_other = None if other is None else run_other(the_plan, other, second, cancel_hook(folder, token))
     except RunCancelled:
         progress.show(0, "cancelled")
         return no_update, "Cancelled. The results shown (if any) are from the previous run."
@@ -128,6 +151,9 @@ def run_plan(
     n = len(comp.results)
     data = dict(comparison_to_store(comp))
     data["plan"] = list((plan or {}).get("scenarios", []))  # what the plan held when it ran (see is_stale)
+    if comp_other is not None:
+        data["other"] = other_to_store(comp_other)
+        return data, f"Ran {n} scenario{'s' if n != 1 else ''} under both lake models."
     return data, f"Ran {n} scenario{'s' if n != 1 else ''}."
 
 
@@ -153,7 +179,17 @@ def on_results(data: Store, meeting_value: list[str] | None, tab: str | None = i
         blank = empty_figure("The stored results could not be read; run the plan again.", meeting=meeting)
         return columns, [], blank, blank, blank, blank
     figs = result_figures(comp.results, meeting=meeting)
-    return (columns, outcome_table(comp.results, meeting), *figs.values())
+    rows = outcome_table(comp.results, meeting)
+    if data.get("other"):
+        try:
+            others = other_results(data)
+        except (ValueError, KeyError, TypeError):
+            others = []
+        rows = side_by_side(rows, comp.results, others, comp.plan.lake.model, meeting)
+        model_col, lag_col = both_columns(meeting)
+        at = next((i + 1 for i, c in enumerate(columns) if c["field"] == "recovery_years_median"), len(columns))
+        columns = [columns[0], model_col, *columns[1:at], lag_col, *columns[at:]]
+    return (columns, rows, *figs.values())
 
 
 def on_results_note(data: Store, tab: str | None, lake: Lake, history: Store, fit: Store = None) -> Any:
@@ -329,9 +365,28 @@ def _register_run(app: Dash, folder: Path) -> None:
     )(partial(on_run_request, folder=folder))
 
     def run(
-        set_progress: SetProgress, request: Store, plan: Store, lake: Lake, history: Store, fit: Store = None
+        set_progress: SetProgress,
+        request: Store,
+        plan: Store,
+        lake: Lake,
+        history: Store,
+        fit: Store = None,
+        both: list[str] | None = None,
+        values: Mapping[str, Any] | None = None,
+        pool_values: Mapping[str, Any] | None = None,
     ) -> tuple[Any, str]:
-        return run_plan(set_progress, request, plan, lake, history, folder=folder, fit=fit)
+        return run_plan(
+            set_progress,
+            request,
+            plan,
+            lake,
+            history,
+            folder=folder,
+            fit=fit,
+            both=both,
+            values=values,
+            pool_values=pool_values,
+        )
 
     app.callback(
         output=[
@@ -344,6 +399,9 @@ def _register_run(app: Dash, folder: Path) -> None:
             "lake": State(ids.LAKE_STORE, "data"),
             "history": State(ids.HISTORY_STORE, "data"),
             "fit": State(ids.FIT_STORE, "data"),
+            "both": State(ids.PLAN_BOTH_MODELS, "value"),
+            "values": {f: State(ids.FIELDS[f][0], "value") for f in FIELD_RULES},
+            "pool_values": {f: State(ids.TWO_POOL_FIELDS[f][0], "value") for f in TWO_POOL_RULES},
         },
         background=True,
         progress=[Output(ids.PLAN_PROGRESS, "value"), Output(ids.PLAN_PROGRESS_TEXT, "children")],

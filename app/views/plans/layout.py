@@ -291,8 +291,28 @@ def _list_card() -> html.Div:
                 [
                     html.Button("Run the plan", id=ids.PLAN_RUN, n_clicks=0, className="plan-run"),
                     html.Button("Cancel", id=ids.PLAN_CANCEL, n_clicks=0, disabled=True, className="secondary"),
+                    dcc.Checklist(
+                        id=ids.PLAN_BOTH_MODELS,
+                        options=[
+                            {
+                                "label": " Also run under the other lake model (water alone, or water and mud), "
+                                "side by side",
+                                "value": "on",
+                            }
+                        ],
+                        value=[],
+                        className="both-models",
+                        persistence=True,
+                        persistence_type="session",
+                    ),
                 ],
                 className="control-row",
+            ),
+            html.P(
+                "The other model's lake is the one in the lake settings of 'The lake now' (by default the demo lake "
+                "in that model), with the same volume and starting lake phosphorus. 'Lag from the sediment' is the "
+                "recovery year with the mud minus the recovery year of the water alone.",
+                className="hint",
             ),
             html.Div(
                 [

@@ -6,12 +6,13 @@ from collections.abc import Mapping
 from typing import Any
 
 from dash import html
-from turnback.model.equilibrium import folds
+from turnback.model.lake_models import lake_folds
 from turnback.model.parameter_draws import ParameterDraws
 from turnback.model.plan import ScenarioLake
+from turnback.model.two_pool import TwoPoolParameters
 
 from ... import ids
-from ...stores import fit_of, lake_from_store, same_lake, state_now
+from ...stores import fit_of, lake_from_store, same_lake, sediment_now, state_now
 
 
 def fit_draws(lake: Mapping[str, Any], fit: Mapping[str, Any] | None) -> ParameterDraws | None:
@@ -34,16 +35,19 @@ def plan_lake(
 ) -> ScenarioLake:
     """The current lake as a :class:`ScenarioLake` starting at its state now (ValueError if the map cannot run it).
 
-    After a fit of this lake its members run the fit's parameter draws (:func:`fit_draws`).
+    After a fit of this lake its members run the fit's parameter draws (:func:`fit_draws`); a two-pool lake
+    starts with its sediment P now too.
     """
     params, profile = lake_from_store(lake)
     p, _, _ = state_now(lake, history)
+    m = sediment_now(lake, history)
     return ScenarioLake(
         params,
         profile.volume_m3,
         float(profile.concentration(p)),
         name=name or profile.name,
-        parameter_draws=fit_draws(lake, fit),
+        initial_sediment_p_kg=m,
+        parameter_draws=fit_draws(lake, fit) if m is None else None,
     )
 
 
@@ -60,6 +64,15 @@ def draws_words(draws: ParameterDraws | None) -> str:
 
 def lake_words(lake: ScenarioLake) -> str:
     p = lake.params
+    if isinstance(p, TwoPoolParameters):
+        mud = (
+            "" if lake.initial_sediment_p_kg is None else f", starting sediment P {lake.initial_sediment_p_kg:,.0f} kg"
+        )
+        return (
+            f"two-pool lake: sedimentation {p.s:g}/yr, outflow {p.h:g}/yr, burial {p.b:g}/yr, recycling rate "
+            f"{p.r:g}/yr, half-saturation {p.m:,.6g} kg, exponent {p.q:g}, volume {lake.volume_m3:.4g} m³, "
+            f"starting TP {lake.initial_tp_ug_l:.1f} µg/L{mud}"
+        )
     return (
         f"loss rate {p.s:g}/yr, maximum recycling {p.r:,.6g} kg/yr, half-saturation {p.m:,.6g} kg, exponent {p.q:g}, "
         f"volume {lake.volume_m3:.4g} m³, starting TP {lake.initial_tp_ug_l:.1f} µg/L"
@@ -73,16 +86,18 @@ def lake_note(
     params, profile = lake_from_store(lake)
     p, load, year = state_now(lake, history)
     tp = float(profile.concentration(p))
+    m = sediment_now(lake, history)
+    mud = f" and {m:,.0f} kg P in the mud" if m is not None else ""
     where = "the lake's state now in 'The lake now'" + (f" (year {year})" if year is not None else "")
     if year is None:
-        where = "its clear equilibrium at today's load"
-    fs = folds(params)
+        where = "its turbid state at today's load" if m is not None else "its clear equilibrium at today's load"
+    fs = lake_folds(params)
     fold_text = f" Tipping load {fs[0].load:,.0f} kg/yr, recovery load {max(fs[1].load, 0):,.0f} kg/yr." if fs else ""
     return [
         html.B(profile.name),
-        f": scenarios start at TP {tp:.1f} µg/L ({p:,.0f} kg P), {where}, with the load now {load:,.0f} kg/yr."
+        f": scenarios start at TP {tp:.1f} µg/L ({p:,.0f} kg P{mud}), {where}, with the load now {load:,.0f} kg/yr."
         + fold_text
-        + draws_words(fit_draws(lake, fit)),
+        + draws_words(fit_draws(lake, fit) if m is None else None),
     ]
 
 
