@@ -23,7 +23,7 @@ from flask import Response, jsonify, request
 from werkzeug.exceptions import HTTPException, RequestEntityTooLarge
 
 from . import ids
-from .store_checks import MAX_REQUEST_BYTES, StoreError, check_payload_value, check_store, label
+from .store_checks import LARGE_TEXT_STORES, MAX_REQUEST_BYTES, StoreError, check_payload_value, check_store, label
 
 __all__ = ["check_request", "install", "on_callback_error"]
 
@@ -62,7 +62,7 @@ def check_request(body: Any) -> None:
             continue
         if not isinstance(cid, str):
             raise StoreError("The page sent a request the server cannot read; nothing was changed.")
-        max_text = MAX_REQUEST_BYTES if prop == "contents" else None
+        max_text = MAX_REQUEST_BYTES if prop == "contents" or cid in LARGE_TEXT_STORES else None
         check_payload_value(value, label(cid), **({"max_text": max_text} if max_text else {}))
         if prop == "data":
             check_store(cid, value)

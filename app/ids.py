@@ -70,13 +70,21 @@ VIEW_LAKE = "view-lake"
 VIEW_RECORD = "view-record"
 VIEW_PLANS = "view-plans"
 VIEW_MAP = "view-map"
+VIEW_REGION = "view-region"
 #: tab values (the value of ``VIEW_TABS``)
 TAB_LAKE = "lake"
 TAB_RECORD = "record"
 TAB_PLANS = "plans"
 TAB_MAP = "map"
+TAB_REGION = "region"
 #: tab value -> view container id, in tab order
-VIEWS = {TAB_LAKE: VIEW_LAKE, TAB_RECORD: VIEW_RECORD, TAB_PLANS: VIEW_PLANS, TAB_MAP: VIEW_MAP}
+VIEWS = {
+    TAB_LAKE: VIEW_LAKE,
+    TAB_RECORD: VIEW_RECORD,
+    TAB_PLANS: VIEW_PLANS,
+    TAB_MAP: VIEW_MAP,
+    TAB_REGION: VIEW_REGION,
+}
 
 # clarity words in the readout
 CLARITY_WORDS = "clarity-words"
@@ -226,3 +234,30 @@ TWO_POOL_FIELDS = {
 STATE_SEDIMENT = "state-sediment"  # water P and sediment P in the readout
 TIME_LAG = "time-lag"  # the years until clear water, under the time panel
 PLAN_BOTH_MODELS = "plan-both-models"  # run the plan under both lake models side by side
+
+# --------------------------------------------------------------------------
+# region view (app/views/region): screen many lakes at once
+# --------------------------------------------------------------------------
+REGION_STORE = "region-store"  # the last completed screen: lakes, failures, notes (session)
+REGION_FILES = "region-files"  # the files ready to screen: LAKES.csv and RECORDS.csv as data URLs (memory)
+REGION_LAKES_UPLOAD = "region-lakes-upload"
+REGION_RECORDS_UPLOAD = "region-records-upload"
+REGION_DEMO = "region-demo"  # load the built-in invented region
+REGION_FILES_NOTE = "region-files-note"  # which files are ready
+REGION_MESSAGE = "region-message"  # what to fix in a file, or why a run stopped
+REGION_REPLICATES = "region-replicates"
+REGION_RUN = "region-run"
+REGION_CANCEL = "region-cancel"
+REGION_PROGRESS = "region-progress"
+REGION_PROGRESS_TEXT = "region-progress-text"
+REGION_SUMMARY = "region-summary"
+REGION_TABLE = "region-table"
+REGION_FAILED = "region-failed"
+REGION_GRAPH = "region-graph"
+REGION_EXPONENT = "region-exponent"  # the recycling exponent the regions on the plane are drawn for
+REGION_PLANE_NOTE = "region-plane-note"
+REGION_OPEN_MESSAGE = "region-open-message"
+REGION_EXPORT_CSV = "region-export-csv"
+REGION_EXPORT_HTML = "region-export-html"
+REGION_DOWNLOAD = "region-download"
+REGION_EXPORT_MESSAGE = "region-export-message"

@@ -32,6 +32,8 @@ from .views.plans.figures import clear_probability_figure, load_figure, recovery
 
 __all__ = [
     "CAUTIONS",
+    "REPORT_CSS",
+    "SORT_TABLE_JS",
     "build_report_html",
     "outcome_rows",
     "report_figures",
@@ -308,6 +310,10 @@ _ASSUMPTIONS = (
     "clear equilibrium, is at most the limit; bisection on one ensemble with common random numbers. Its "
     "± error is the binomial standard error at the limit divided by the local slope of the probability.",
 )
+
+#: the report's stylesheet and sortable-table script, shared by the region view's summary (table id "outcomes")
+REPORT_CSS = _CSS
+SORT_TABLE_JS = _SORT_JS
 
 
 def build_report_html(

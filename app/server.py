@@ -15,6 +15,7 @@ from .views.lake import callbacks as lake_callbacks
 from .views.map import callbacks as map_callbacks
 from .views.plans import callbacks as plans_callbacks
 from .views.record import callbacks as record_callbacks
+from .views.region import callbacks as region_callbacks
 
 
 def create_app(data_dir: str | Path | None = None) -> Dash:
@@ -38,5 +39,6 @@ def create_app(data_dir: str | Path | None = None) -> Dash:
     lake_callbacks.register(app)
     map_callbacks.register(app)
     record_callbacks.register(app)
+    region_callbacks.register(app)
     plans_callbacks.register(app, Path(data_dir) if data_dir is not None else None)
     return app

@@ -17,6 +17,7 @@ from .views.lake.layout import build_view as lake_view
 from .views.map.layout import build_view as map_view
 from .views.plans.layout import build_view as plans_view
 from .views.record.layout import build_view as record_view
+from .views.region.layout import build_view as region_view
 
 CAUTION = (
     "These figures are scenario estimates from a simplified (one-box or two-pool) model of lake phosphorus. "
@@ -36,6 +37,7 @@ TABS = {
     ids.TAB_RECORD: "Monitoring record",
     ids.TAB_PLANS: "Plans compared",
     ids.TAB_MAP: "Regime map",
+    ids.TAB_REGION: "Region",
 }
 HIDDEN = {"display": "none"}
 _LIVE: dict[str, Any] = {"aria-live": "polite"}  # screen readers read the notice when it changes
@@ -53,10 +55,12 @@ def stores(lake: LakeStore, record: RecordStore | None) -> list[dcc.Store]:
         dcc.Store(id=ids.PLAN_EDITING, storage_type="session"),
         dcc.Store(id=ids.PLAN_RESULTS_STORE, storage_type="session"),
         dcc.Store(id=ids.PLAN_PRECAUTION_STORE, storage_type="session"),
+        dcc.Store(id=ids.REGION_STORE, storage_type="session"),
     ]
     memory = [
         dcc.Store(id=ids.PLAN_RUN_REQUEST, storage_type="memory"),
         dcc.Store(id=ids.PLAN_PRECAUTION_REQUEST, storage_type="memory"),
+        dcc.Store(id=ids.REGION_FILES, storage_type="memory"),
     ]
     return session + memory
 
@@ -100,6 +104,7 @@ def build_layout(lake: LakeStore, record: RecordStore | None = None) -> html.Div
         ids.TAB_RECORD: record_view(),
         ids.TAB_PLANS: plans_view(),
         ids.TAB_MAP: map_view(),
+        ids.TAB_REGION: region_view(),
     }
     return html.Div(
         [

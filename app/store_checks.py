@@ -55,6 +55,12 @@ MAX_TEXT = 20_000
 MAX_ITEMS = 400_000
 #: Most bootstrap lakes a fit keeps for the regime map.
 MAX_CLOUD = 2_000
+#: Most lakes a region screen in the dashboard holds (views/region/results.py MAX_LAKES).
+MAX_REGION_LAKES = 2000
+#: Longest data URL of one region file (base64 of an upload at the limit, and its header).
+MAX_REGION_FILE_TEXT = MAX_UPLOAD_BYTES * 4 // 3 + 200
+#: stores whose text may be as long as an upload's data URL
+LARGE_TEXT_STORES = (ids.REGION_FILES,)
 _TOKEN = re.compile(r"[0-9a-f]{32}")
 #: Surrogate series times record years the warning signs may cost per request.
 SURROGATE_BUDGET = 250_000
@@ -327,6 +333,53 @@ def check_precaution_answer(v: Any) -> None:
     _dict(d.get("result"), "a precautionary-load answer")
 
 
+def check_region(v: Any) -> None:
+    """``REGION_STORE``: the last screen (every lake's parameters must make a lake the engine takes)."""
+    if v is None:
+        return
+    d = _dict(v, "a region screen")
+    _text(d.get("source"), "a region screen", 500)
+    _numbers([d.get("replicates"), d.get("seed")], "a region screen", 2, 0, 1e9)
+    for row in _list(d.get("lakes"), "a region's lakes", MAX_REGION_LAKES):
+        r = _dict(row, "a screened lake")
+        _text(r.get("lake_id"), "a screened lake", 120)
+        if r.get("regime") not in ("reversible", "hysteretic", "irreversible"):
+            raise _bad("a screened lake", "an unknown regime")
+        _model(partial(LakeParameters.from_dict, r.get("params")), "a screened lake")
+        _numbers([r.get("load_kg_yr"), r.get("volume_m3")], "a screened lake", 2, 0.0, MAX_VALUE)
+        _numbers([r.get("area_km2")], "a screened lake's area", 1, 1e-12, MAX_VALUE, allow_none=True)
+        loads = [r.get("tipping_load"), r.get("recovery_load"), r.get("margin_kg_yr")]
+        _numbers(loads, "a screened lake's loads", 3, -MAX_VALUE, MAX_VALUE, allow_none=True)
+        shares = [r.get("p_irreversible"), r.get("p_hysteretic")]
+        _numbers(shares, "a screened lake's regime shares", 2, 0.0, 1.0, allow_none=True)
+        for w in _list(r.get("warnings", []), "a screened lake's warnings", 100):
+            _text(w, "a screened lake's warnings", 2000)
+        if "start" in r:
+            s = _dict(r["start"], "a screened lake's last year")
+            _numbers([s.get("year")], "a screened lake's last year", 1, -10_000, 10_000)
+            _numbers([s.get("p")], "a screened lake's last year", 1, 0.0, MAX_VALUE)
+    for f in _list(d.get("failed", []), "a region's failed lakes", MAX_REGION_LAKES):
+        f = _dict(f, "a failed lake")
+        _text(f.get("lake_id"), "a failed lake", 120)
+        _text(f.get("message"), "a failed lake", 2000)
+
+
+def check_region_files(v: Any) -> None:
+    """``REGION_FILES``: at most two files, each a name and a data URL within the upload limit."""
+    if v is None:
+        return
+    d = _dict(v, "the region's files")
+    if set(d) - {"lakes", "records"}:
+        raise _bad("the region's files", "unknown fields")
+    for key in ("lakes", "records"):
+        if d.get(key) is None:
+            continue
+        f = _dict(d[key], "a region file")
+        _text(f.get("name"), "a region file", 200)
+        if not isinstance(f.get("contents"), str) or len(f["contents"]) > MAX_REGION_FILE_TEXT:
+            raise _bad("a region file", f"not a data URL of at most {MAX_UPLOAD_BYTES // 1_000_000} MB")
+
+
 #: store id -> its check
 CHECKS: dict[str, Callable[[Any], None]] = {
     ids.LAKE_STORE: check_lake,
@@ -340,6 +393,8 @@ CHECKS: dict[str, Callable[[Any], None]] = {
     ids.PLAN_PRECAUTION_STORE: check_precaution_answer,
     ids.PLAN_RUN_REQUEST: check_token_request,
     ids.PLAN_PRECAUTION_REQUEST: check_token_request,
+    ids.REGION_STORE: check_region,
+    ids.REGION_FILES: check_region_files,
 }
 
 

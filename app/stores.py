@@ -19,6 +19,8 @@ store                      schema              codec
 ``PLAN_PRECAUTION_STORE``  :class:`PrecautionStore`  :func:`precaution_to_store` (read by :func:`comparison_from_store`)
 ``PLAN_RUN_REQUEST``       :class:`RunRequest`  ``{"token"}``
 ``PLAN_PRECAUTION_REQUEST``  :class:`PrecautionRequest`  built from the precaution form
+``REGION_STORE``           :class:`RegionStore`  built in views/region/results.py
+``REGION_FILES``           :class:`RegionFiles`  built in views/region/files.py (memory)
 =========================  ==================  =========================================
 """
 
@@ -201,6 +203,51 @@ class ResultsStore(TypedDict):
     run_at: str
     results: list[ResultEntry]
     plan: NotRequired[list[dict[str, Any]]]  # the plan's scenarios when it ran (the results go stale when they change)
+
+
+class RegionRow(TypedDict):
+    """One screened lake: the keys of ``turnback screen --json``, and what the region view needs besides."""
+
+    lake_id: str
+    name: str | None
+    regime: str
+    tipping_load: float | None  # [kg yr⁻¹]
+    recovery_load: float | None
+    margin_kg_yr: float | None
+    state: str | None  # "clear", "turbid", "single" or None
+    p_irreversible: float | None
+    p_hysteretic: float | None
+    warnings: list[str]
+    fitted: bool
+    load_kg_yr: float  # today's load [kg yr⁻¹]
+    params: dict[str, float]  # LakeParameters.to_dict(), given or fitted
+    volume_m3: float
+    area_km2: float | None
+    start: NotRequired[LakeStart]  # the last observed year, for a lake with a record
+
+
+class RegionStore(TypedDict):
+    """``REGION_STORE``: the last completed screen of a region, lakes in the lake table's order."""
+
+    source: str  # the files' names
+    replicates: int
+    seed: int
+    run_at: str
+    lakes: list[RegionRow]
+    failed: list[dict[str, str]]  # {"lake_id", "message"}
+    notes: list[str]
+
+
+class RegionFile(TypedDict):
+    name: str
+    contents: str  # the upload's data URL
+
+
+class RegionFiles(TypedDict):
+    """``REGION_FILES`` (memory): the files the next screen reads; a bad upload never replaces one."""
+
+    lakes: RegionFile | None
+    records: RegionFile | None
 
 
 # --------------------------------------------------------------------------

@@ -31,6 +31,10 @@ REGIME_FILL = {
     "irreversible": "rgba(163, 58, 31, 0.08)",
 }
 
+#: a lake of each regime: markers on the region's plane (strong) and rows of its table (light, dark text on it)
+REGIME_COLOUR = {"reversible": CLEAR, "hysteretic": "#b7780d", "irreversible": "#a33a1f"}
+REGIME_ROW = {"reversible": "#e4eef7", "hysteretic": "#fbf0d3", "irreversible": "#f6dfd8"}
+
 
 def load_axis_title(meeting: bool) -> str:
     """The inflow axis in the chosen register (see :mod:`app.vocabulary`)."""

@@ -364,3 +364,47 @@ TERMS.update(
         "recycling_rate_axis": ("Recycling rate r [yr⁻¹]", "Most of the mud's P released a year"),
     }
 )
+
+
+# --------------------------------------------------------------------------
+# the region view: many lakes screened at once
+# --------------------------------------------------------------------------
+#: region table column -> (technical, meeting) heading
+REGION_COLUMNS: dict[str, tuple[str, str]] = {
+    "lake_id": ("Lake", "Lake"),
+    "name": ("Name", "Name"),
+    "regime": ("Regime", "Kind of lake"),
+    "state": ("State (last year)", "Water now"),
+    "load_kg_yr": ("Today's load [kg yr⁻¹]", "Inflow now (kg/yr)"),
+    "tipping_load": ("Tipping load [kg yr⁻¹]", "Tipping point (kg/yr)"),
+    "recovery_load": ("Recovery load [kg yr⁻¹]", "Way-back point (kg/yr)"),
+    "margin_kg_yr": ("Margin to tipping [kg yr⁻¹]", "Room before tipping (kg/yr)"),
+    "p_irreversible": ("P(irreversible)", "Chance of no way back"),
+    "p_hysteretic": ("P(hysteretic)", "Chance of a harder way back"),
+    "source": ("Parameters", "Numbers from"),
+    "n_warnings": ("Warnings", "Notes"),
+}
+#: the screened state of a lake's last observed year -> (technical, meeting); None: no record
+REGION_STATE: dict[str | None, tuple[str, str]] = {
+    "clear": ("clear", "clear"),
+    "turbid": ("turbid", "turbid, green"),
+    "single": ("one stable state", "settled, one state"),
+    None: ("no record", "not measured"),
+}
+#: where a lake's parameters come from -> (technical, meeting)
+REGION_SOURCE: dict[bool, tuple[str, str]] = {False: ("given", "the lake table"), True: ("fitted", "measurements")}
+
+TERMS.update(
+    {
+        "plane_x": ("Dimensionless load a = L/r [–]", "Inflow, scaled by what the mud can release"),
+        "plane_y": ("Dimensionless loss b = s m/r [–]", "How well the lake flushes P, scaled"),
+        "other_q": ("other exponent q (placed approximately)", "lakes of another kind (placed roughly)"),
+        "given_lake": ("given parameters", "numbers from the lake table"),
+        "fitted_lake": ("fitted parameters", "numbers from measurements"),
+    }
+)
+
+
+def region_word(table: Mapping[Any, tuple[str, str]], key: Any, meeting: bool) -> str:
+    """A region table cell in the chosen register (``REGION_STATE``, ``REGION_SOURCE``, ``REGIME_NAMES``)."""
+    return table[key][1 if meeting else 0]

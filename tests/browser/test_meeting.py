@@ -14,6 +14,8 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+from turnback.app import ids
+from turnback.app.shell import TABS as SHELL_TABS
 from turnback.model.demo import DEMO_PARAMETERS, DEMO_PROFILE
 from turnback.model.equilibrium import folds
 
@@ -21,7 +23,7 @@ from .harness import ARTIFACTS, Dashboard
 
 TIP, REC = folds(DEMO_PARAMETERS)
 TODAY = DEMO_PROFILE.load_kg_per_yr
-TABS = {"lake": "The lake now", "record": "Monitoring record", "plans": "Plans compared", "map": "Regime map"}
+TABS = dict(SHELL_TABS)  # every view: tab value -> label
 SIZES = ((1920, 1080), (1366, 768))
 
 
@@ -197,7 +199,7 @@ def test_tabs_are_reachable_by_keyboard(browser: Any, app_url: str) -> None:
     context, dash, errors = open_page(browser, app_url, 1500, 1000)
     page = dash.page
     assert page.get_attribute(".view-tabs", "role") == "tablist"
-    assert page.locator(".view-tabs [role='tab']").count() == 4
+    assert page.locator(".view-tabs [role='tab']").count() == len(ids.VIEWS)
     page.focus(".view-tabs [role='tab'][aria-selected='true']")
     page.keyboard.press("ArrowRight")
     dash.wait_idle()

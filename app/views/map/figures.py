@@ -66,22 +66,23 @@ def two_pool_view(tmap: TwoPoolRegimeMap) -> TwoPoolMapView:
 _AXIS_TERMS = {"loss_rate": "loss_rate_axis", "recycling_max": "recycling_axis"}
 
 
-def regime_map_figure(
-    rmap: RegimeMap | Any,
-    *,
-    load_now: float,
-    cloud: tuple[Sequence[float], Sequence[float]] | None = None,
-    meeting: bool = False,
-) -> go.Figure:
-    """The (load, parameter) plane: regime bands, fold curves, the bistable wedge, the lake and its fitted cloud."""
-    sz = sizes(meeting)
-    sty = {"font": sz.font, "line": sz.line, "marker": sz.marker}
-    axis_title = term(_AXIS_TERMS.get(rmap.axis, f"{rmap.axis}_axis"), meeting)
-    fig = go.Figure()
+def plane_x_range(rmap: RegimeMap | Any, loads: Sequence[float]) -> tuple[float, float]:
+    """The load axis of a regime plane: the fold curves, zero and ``loads``, with a margin (negative part capped)."""
+    every = np.concatenate([rmap.tipping.load, rmap.recovery.load, np.asarray(loads, dtype=float), [0.0]])
+    x_hi = max(float(np.nanmax(every)), 1e-12) * 1.15
+    x_lo = max(min(0.0, float(np.nanmin(every))) * 1.05, -0.6 * x_hi)
+    return x_lo, x_hi
+
+
+def add_regime_plane(
+    fig: go.Figure, rmap: RegimeMap | Any, x_range: tuple[float, float], *, meeting: bool, dimensionless: bool = False
+) -> None:
+    """Draw a regime plane on ``fig``: regime bands named in the right margin, the part below zero load, the
+    bistable wedge, both fold curves and the cusp.  ``dimensionless``: the axes are ``L/r`` and ``b = s m/r``
+    (the hover text says so instead of kg/yr)."""
+    sty = sizes(meeting)
     lo_p, hi_p = rmap.parameter_range
-    loads = np.concatenate([rmap.tipping.load, rmap.recovery.load, [load_now, 0.0]])
-    x_hi = max(float(np.nanmax(loads)), load_now) * 1.15
-    x_lo = max(min(0.0, float(np.nanmin(loads))) * 1.05, -0.6 * x_hi)
+    x_lo = x_range[0]
     for reg, b_lo, b_hi in rmap.bands:
         fig.add_hrect(y0=b_lo, y1=b_hi, fillcolor=REGIME_FILL[reg], line_width=0, layer="below")
         if max(b_lo, lo_p) >= min(b_hi, hi_p):
@@ -96,7 +97,7 @@ def regime_map_figure(
             showarrow=False,
             align="left",
             text=REGIME_SHORT[reg][1 if meeting else 0],
-            font={"size": sty["font"] - 3, "color": "#444"},
+            font={"size": sty.font - 3, "color": "#444"},
         )
     if x_lo < 0:
         fig.add_vrect(
@@ -107,7 +108,7 @@ def regime_map_figure(
             layer="below",
             annotation_text=term("below_zero", meeting),
             annotation_position="bottom left",
-            annotation_font={"size": sty["font"] - 4, "color": "#555"},
+            annotation_font={"size": sty.font - 4, "color": "#555"},
         )
     fig.add_trace(
         go.Scatter(
@@ -122,26 +123,18 @@ def regime_map_figure(
             showlegend=True,
         )
     )
-    fig.add_trace(
-        go.Scatter(
-            x=rmap.tipping.load,
-            y=rmap.tipping.parameter,
-            mode="lines",
-            name=term("tipping_fold", meeting),
-            line={"color": CLEAR, "width": sty["line"]},
-            hovertemplate="tipping fold: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
+    at = "L/r %{x:.3f}, b %{y:.3f}" if dimensionless else "%{x:.0f} kg/yr at %{y:.4g}"
+    for curve, key, colour in ((rmap.tipping, "tipping_fold", CLEAR), (rmap.recovery, "recovery_fold", TURBID)):
+        fig.add_trace(
+            go.Scatter(
+                x=curve.load,
+                y=curve.parameter,
+                mode="lines",
+                name=term(key, meeting),
+                line={"color": colour, "width": sty.line},
+                hovertemplate=f"{key.replace('_', ' ')}: {at}<extra></extra>",
+            )
         )
-    )
-    fig.add_trace(
-        go.Scatter(
-            x=rmap.recovery.load,
-            y=rmap.recovery.parameter,
-            mode="lines",
-            name=term("recovery_fold", meeting),
-            line={"color": TURBID, "width": sty["line"]},
-            hovertemplate="recovery fold: %{x:.0f} kg/yr at %{y:.4g}<extra></extra>",
-        )
-    )
     if rmap.cusp is not None and lo_p <= rmap.cusp.parameter <= hi_p:
         fig.add_trace(
             go.Scatter(
@@ -149,9 +142,26 @@ def regime_map_figure(
                 y=[rmap.cusp.parameter],
                 mode="markers",
                 name=term("cusp", meeting),
-                marker={"symbol": "diamond", "size": sty["marker"], "color": FOLD},
+                marker={"symbol": "diamond", "size": sty.marker, "color": FOLD},
             )
         )
+
+
+def regime_map_figure(
+    rmap: RegimeMap | Any,
+    *,
+    load_now: float,
+    cloud: tuple[Sequence[float], Sequence[float]] | None = None,
+    meeting: bool = False,
+) -> go.Figure:
+    """The (load, parameter) plane: regime bands, fold curves, the bistable wedge, the lake and its fitted cloud."""
+    sz = sizes(meeting)
+    sty = {"font": sz.font, "line": sz.line, "marker": sz.marker}
+    axis_title = term(_AXIS_TERMS.get(rmap.axis, f"{rmap.axis}_axis"), meeting)
+    fig = go.Figure()
+    lo_p, hi_p = rmap.parameter_range
+    x_lo, x_hi = plane_x_range(rmap, [load_now])
+    add_regime_plane(fig, rmap, (x_lo, x_hi), meeting=meeting)
     if cloud is not None and len(cloud[0]):
         fig.add_trace(
             go.Scatter(

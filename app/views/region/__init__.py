@@ -1,0 +1,1 @@
+"""The region view: screen many lakes at once."""
