@@ -369,8 +369,8 @@ def check_region_files(v: Any) -> None:
     if v is None:
         return
     d = _dict(v, "the region's files")
-    if set(d) - {"lakes", "records"}:
-        raise _bad("the region's files", "unknown fields")
+    if set(d) != {"lakes", "records"}:
+        raise _bad("the region's files", "other fields than the lake table and the records")
     for key in ("lakes", "records"):
         if d.get(key) is None:
             continue

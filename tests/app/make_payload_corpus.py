@@ -23,6 +23,7 @@ OUT = Path(__file__).resolve().parent / "payload_corpus.json"
 STORE_IDS = {
     "lake-store", "history-store", "history-tail", "record-store", "fit-store", "plan-store", "plan-editing",
     "plan-results-store", "plan-precaution-store", "plan-run-request", "plan-precaution-request",
+    "region-store", "region-files",
 }  # fmt: skip
 
 
@@ -63,6 +64,16 @@ def _bad_stores(store: str) -> list[tuple[str, Any]]:
         ],
         "plan-store": [("a bad scenario", {"scenarios": [{"name": "x", "years": 1e9, "load": {"kind": []}}]})],
         "plan-run-request": [("a token that is a path", {"token": "../../etc/passwd"})],
+        "region-store": [
+            ("a lake of an unknown regime", {"source": "x", "replicates": 100, "seed": 1, "failed": [], "notes": [],
+                                             "lakes": [{"lake_id": "A", "regime": "maybe", "params": {}}]}),
+            ("3,000 lakes", {"source": "x", "replicates": 100, "seed": 1, "failed": [], "notes": [],
+                             "lakes": compact(3000, {"lake_id": "A"})}),
+        ],
+        "region-files": [
+            ("a file that is a number", {"lakes": {"name": "LAKES.csv", "contents": 5}, "records": None}),
+            ("an unknown file", {"lakes": None, "records": None, "loads": {"name": "x", "contents": "data:,"}}),
+        ],
     }
     return common + specific.get(store, [])
 

@@ -163,7 +163,7 @@ def test_regime_map_figure_and_view_switch() -> None:
     assert tuple(lake.y) == (P.loss_rate,)
     styles = on_view(ids.TAB_MAP)
     assert styles[list(ids.VIEWS).index(ids.TAB_MAP)] == {}
-    assert sum(1 for s in styles if s == {"display": "none"}) == 3
+    assert sum(1 for s in styles if s == {"display": "none"}) == len(ids.VIEWS) - 1
 
 
 def test_readout_gives_clarity_and_who_caution() -> None:
