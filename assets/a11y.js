@@ -10,6 +10,13 @@
     'map-axis': 'Lake property up the side of the map',
     'lake-model': 'Lake model',
     'plan-both-models': 'Run under both lake models',
+    'region-exponent': 'Recycling exponent the regions of the plane are drawn for',
+  };
+  //: upload box -> the name of its file input
+  var FILES = {
+    'record-upload': 'Monitoring CSV file',
+    'region-lakes-upload': 'LAKES.csv: the region\'s lake table',
+    'region-records-upload': 'RECORDS.csv: the lakes\' yearly records',
   };
   function set(el, name, value) { if (el.getAttribute(name) !== value) { el.setAttribute(name, value); } }
   function names() {
@@ -35,8 +42,10 @@
         if (!t.getAttribute('aria-label')) { t.setAttribute('aria-label', 'Phosphorus inflow, kg per year'); }
       });
     }
-    document.querySelectorAll('#record-upload input[type="file"]').forEach(function (t) {
-      if (!t.getAttribute('aria-label')) { t.setAttribute('aria-label', 'Monitoring CSV file'); }
+    Object.keys(FILES).forEach(function (id) {
+      document.querySelectorAll('#' + id + ' input[type="file"]').forEach(function (t) {
+        if (!t.getAttribute('aria-label')) { t.setAttribute('aria-label', FILES[id]); }
+      });
     });
   }
   function label(container) {

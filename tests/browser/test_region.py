@@ -13,6 +13,7 @@ import time
 from pathlib import Path
 from typing import Any
 
+import pytest
 from turnback.app import ids
 from turnback.app.theme import REGIME_ROW
 from turnback.model.screening import RESULT_KEYS
@@ -54,7 +55,7 @@ def upload_and_screen(dash: Dashboard) -> int:
     page.wait_for_selector(f"#{ids.REGION_TABLE} .ag-row", timeout=30_000)
     dash.wait_idle()
     time.sleep(0.5)
-    return int(page.locator(f"#{ids.REGION_TABLE} .ag-center-cols-container .ag-row").count())
+    return int(page.evaluate(f"dash_ag_grid.getApi('{ids.REGION_TABLE}').getDisplayedRowCount()"))
 
 
 def test_region_from_upload_to_the_lake_now(browser: Any, app_url: str, tmp_path: Path) -> None:
@@ -64,14 +65,15 @@ def test_region_from_upload_to_the_lake_now(browser: Any, app_url: str, tmp_path
     assert n_rows >= 30
     summary = page.inner_text(f"#{ids.REGION_SUMMARY}")
     assert "lakes" in summary and "LAKES.csv + RECORDS.csv" in summary
-    # ranked by margin: the margins shown go up down the table (blank ones last)
-    margins = page.eval_on_selector_all(
-        f"#{ids.REGION_TABLE} .ag-center-cols-container .ag-row",
-        "rows => rows.sort((a, b) => +a.getAttribute('row-index') - +b.getAttribute('row-index'))"
-        ".map(r => r.querySelector(\"[col-id='margin_kg_yr']\").innerText)",
+    # ranked by margin: the margins go up down the table, lakes without a tipping load last
+    margins = page.evaluate(
+        f"(() => {{ const out = []; dash_ag_grid.getApi('{ids.REGION_TABLE}')"
+        ".forEachNodeAfterFilterAndSort(n => out.push(n.data.margin_kg_yr)); return out; })()"
     )
-    numbers = [float(m.replace(",", "").replace("+", "").replace("−", "-")) for m in margins if m != "none"]
-    assert numbers == sorted(numbers) and len(numbers) >= 20
+    known = [m for m in margins if m is not None]
+    assert known == sorted(known) and margins[: len(known)] == known and len(known) >= 20
+    shown = page.locator(f"#{ids.REGION_TABLE} .ag-row[row-index='0'] [col-id='margin_kg_yr']").first.inner_text()
+    assert float(shown.replace(",", "").replace("+", "").replace("−", "-")) == pytest.approx(known[0], abs=0.5)
     # rows coloured by regime (the theme's tints)
     colours = page.eval_on_selector_all(
         f"#{ids.REGION_TABLE} .ag-center-cols-container .ag-row",
