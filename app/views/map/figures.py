@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -75,11 +76,17 @@ def plane_x_range(rmap: RegimeMap | Any, loads: Sequence[float]) -> tuple[float,
 
 
 def add_regime_plane(
-    fig: go.Figure, rmap: RegimeMap | Any, x_range: tuple[float, float], *, meeting: bool, dimensionless: bool = False
+    fig: go.Figure,
+    rmap: RegimeMap | Any,
+    x_range: tuple[float, float],
+    *,
+    meeting: bool,
+    dimensionless: bool = False,
+    log_y: bool = False,
 ) -> None:
     """Draw a regime plane on ``fig``: regime bands named in the right margin, the part below zero load, the
     bistable wedge, both fold curves and the cusp.  ``dimensionless``: the axes are ``L/r`` and ``b = s m/r``
-    (the hover text says so instead of kg/yr)."""
+    (the hover text says so instead of kg/yr); ``log_y``: the parameter axis is logarithmic."""
     sty = sizes(meeting)
     lo_p, hi_p = rmap.parameter_range
     x_lo = x_range[0]
@@ -92,7 +99,11 @@ def add_regime_plane(
             x=1.01,
             xref="paper",
             xanchor="left",
-            y=0.5 * (max(b_lo, lo_p) + min(b_hi, hi_p)),
+            y=(
+                0.5 * (math.log10(max(b_lo, lo_p)) + math.log10(min(b_hi, hi_p)))
+                if log_y
+                else 0.5 * (max(b_lo, lo_p) + min(b_hi, hi_p))
+            ),
             yref="y",
             showarrow=False,
             align="left",

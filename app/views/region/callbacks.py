@@ -111,10 +111,17 @@ def failed_list(store: Mapping[str, Any], meeting: bool) -> list[Any]:
         ]
     warned = [r for r in store.get("lakes", []) if r.get("warnings")]
     if warned and not meeting:
-        out += [
-            html.H3(f"Warnings ({len(warned)} lakes)"),
-            html.Ul([html.Li(f"{r['lake_id']}: {' '.join(r['warnings'])}") for r in warned], className="problem-list"),
-        ]
+        out.append(
+            html.Details(
+                [
+                    html.Summary(f"Warnings on {len(warned)} lakes (click to show)"),
+                    html.Ul(
+                        [html.Li(f"{r['lake_id']}: {' '.join(r['warnings'])}") for r in warned],
+                        className="problem-list",
+                    ),
+                ]
+            )
+        )
     if store.get("notes") and not meeting:
         out += [html.Ul([html.Li(f"Note: {n}") for n in store["notes"]], className="problem-list")]
     return out

@@ -39,6 +39,10 @@ from ..map.figures import add_regime_plane, plane_x_range
 Q_STEP = 0.5
 #: a lake whose exponent is within this of the drawn one is drawn filled
 Q_CLOSE = 0.25
+#: most exponents offered (the most common ones)
+MAX_CHOICES = 6
+#: the load axis shows this share of the lakes at least (and the fold curves); the rest lie beyond its right edge
+X_SHARE = 0.9
 _REGIMES = ("reversible", "hysteretic", "irreversible")
 
 
@@ -54,9 +58,10 @@ def plane_point(row: Mapping[str, Any]) -> tuple[float, float, float]:
 
 
 def exponent_choices(rows: Sequence[Mapping[str, Any]]) -> list[tuple[float, int]]:
-    """The lakes' exponents rounded to :data:`Q_STEP`, with how many lakes each, most common first."""
+    """The lakes' exponents rounded to :data:`Q_STEP`, with how many lakes each, most common first (at most
+    :data:`MAX_CHOICES`)."""
     counts = Counter(round(plane_point(r)[2] / Q_STEP) * Q_STEP for r in rows)
-    return sorted(counts.items(), key=lambda kv: (-kv[1], kv[0]))
+    return sorted(counts.items(), key=lambda kv: (-kv[1], kv[0]))[:MAX_CHOICES]
 
 
 def unit_lake_map(q: float, b_range: tuple[float, float]) -> RegimeMap:
@@ -75,6 +80,24 @@ def _b_range(bs: Sequence[float], rmap_q: float) -> tuple[float, float]:
     return 0.8 * lo, 1.2 * hi
 
 
+def plane_frame(
+    rows: Sequence[Mapping[str, Any]], q: float
+) -> tuple[RegimeMap, tuple[float, float], list[tuple[float, float, float]], int]:
+    """The plane's regime map, its load range, every lake's ``(a, b, q)`` and how many lakes lie beyond the range.
+
+    The loss axis (logarithmic) covers every lake and both regime edges;
+    the load axis covers the fold curves and at least :data:`X_SHARE` of
+    the lakes, so a few far-out fitted lakes do not squeeze the rest.
+    """
+    pts = [plane_point(r) for r in rows]
+    rmap = unit_lake_map(q, _b_range([b for _, b, _ in pts], q))
+    a_all = np.array([a for a, _, _ in pts], dtype=float)
+    cap = float(np.quantile(a_all, X_SHARE)) if a_all.size else 0.0
+    folds_hi = float(np.nanmax(np.concatenate([rmap.tipping.load, [0.0]])))
+    x_lo, x_hi = plane_x_range(rmap, [a for a in a_all if a <= max(cap, folds_hi)])
+    return rmap, (x_lo, x_hi), pts, int(np.count_nonzero(a_all > x_hi))
+
+
 def plane_figure(rows: Sequence[Mapping[str, Any]], q: float | None, *, meeting: bool = False) -> go.Figure:
     """The screened lakes on the regime plane, with the regions of exponent ``q`` (default: the most common).
 
@@ -90,10 +113,8 @@ def plane_figure(rows: Sequence[Mapping[str, Any]], q: float | None, *, meeting:
         return fig
     if q is None or not math.isfinite(q):
         q = exponent_choices(rows)[0][0]
-    pts = [plane_point(r) for r in rows]
-    rmap = unit_lake_map(q, _b_range([b for _, b, _ in pts], q))
-    x_range = plane_x_range(rmap, [a for a, _, _ in pts])
-    add_regime_plane(fig, rmap, x_range, meeting=meeting, dimensionless=True)
+    rmap, x_range, pts, _ = plane_frame(rows, q)
+    add_regime_plane(fig, rmap, x_range, meeting=meeting, dimensionless=True, log_y=True)
     for regime in _REGIMES:
         idx = [i for i, r in enumerate(rows) if r["regime"] == regime]
         if not idx:
@@ -129,7 +150,7 @@ def plane_figure(rows: Sequence[Mapping[str, Any]], q: float | None, *, meeting:
         autosize=True,
         margin={"l": 80, "r": 130, "t": 70, "b": 60},
         xaxis={"title": term("plane_x", meeting), "range": [x_lo, x_hi]},
-        yaxis={"title": term("plane_y", meeting), "range": [lo_b, hi_b]},
+        yaxis={"title": term("plane_y", meeting), "type": "log", "range": [math.log10(lo_b), math.log10(hi_b)]},
         legend={"orientation": "h", "yref": "container", "yanchor": "top", "y": 1.0, "x": 0.0},
         clickmode="event",
     )
@@ -139,10 +160,13 @@ def plane_figure(rows: Sequence[Mapping[str, Any]], q: float | None, *, meeting:
 def plane_note(rows: Sequence[Mapping[str, Any]], q: float, meeting: bool = False) -> str:
     """What the plane shows: the exponent its regions are drawn for, and how many lakes are hollow."""
     other = sum(abs(plane_point(r)[2] - q) > Q_CLOSE for r in rows)
+    beyond = plane_frame(rows, q)[3] if rows else 0
     if meeting:
         text = "Each dot is a lake, coloured by its kind; click one to open it in 'The lake now'."
         if other:
             text += f" {other} hollow dots are lakes that react more or less sharply than the drawn lines assume."
+        if beyond:
+            text += f" {beyond} more lie off to the right: double-click the picture to see them all."
         return text
     text = (
         f"Regions drawn for recycling exponent q = {q:g}. Circles: given parameters; diamonds: fitted. "
@@ -150,6 +174,8 @@ def plane_note(rows: Sequence[Mapping[str, Any]], q: float, meeting: bool = Fals
     )
     if other:
         text += f" {other} hollow markers have q further than {Q_CLOSE:g} from {q:g}: placed approximately."
+    if beyond:
+        text += f" {beyond} lakes lie beyond the right edge: double-click the plane to autoscale."
     return text
 
 
@@ -198,7 +224,8 @@ def table_columns(meeting: bool = False) -> list[dict[str, Any]]:
         if fmt is None:
             col["cellDataType"] = "text"
         else:
-            blank = "'not fitted'" if key.startswith("p_") else "'none'" if key != "n_warnings" else "''"
+            blank = ("'–'" if meeting else "'not fitted'") if key.startswith("p_") else "'none'"
+            blank = "''" if key == "n_warnings" else blank
             col |= {
                 "cellDataType": "number",
                 "type": "rightAligned",
@@ -246,8 +273,3 @@ def regime_counts(rows: Sequence[Mapping[str, Any]]) -> dict[str, int]:
     """Screened lakes per regime (all three keys)."""
     c = Counter(r["regime"] for r in rows)
     return {k: int(c.get(k, 0)) for k in _REGIMES}
-
-
-def finite(values: Sequence[Any]) -> list[float]:
-    """The finite numbers of ``values`` (None and NaN left out)."""
-    return [float(v) for v in values if v is not None and np.isfinite(float(v))]
