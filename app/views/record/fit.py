@@ -55,11 +55,8 @@ def fit_summary(fit: Mapping[str, Any], meeting: bool = False, in_use: bool = Fa
     se = fit.get("se", {})
     probs = fit["regime_probability"]
     how = (
-        (
-            "a fit that allows for sampling error"
-            if meeting
-            else f"the fit with observation error (from the samples' standard errors) and {fit['replicates']} posterior draws"
-        )
+        ("a fit that allows for sampling error" if meeting else
+         f"the fit with observation error (from the samples' standard errors) and {fit['replicates']} posterior draws")
         if fit.get("method") == "state_space_laplace"
         else (f"{fit['replicates']} repeat fits" if meeting else f"{fit['replicates']} bootstrap replicates")
     )
@@ -67,7 +64,9 @@ def fit_summary(fit: Mapping[str, Any], meeting: bool = False, in_use: bool = Fa
         f"{regime_name(k, meeting)} {share(v)}" for k, v in sorted(probs.items(), key=lambda kv: -kv[1])
     )
     plausible = _plausible(fit)
-    rows: list[Any] = [html.Div(f"Fitted to {fit['record_name']} with {how}.", className="readout-row")]
+    rows: list[Any] = [
+        html.Div(f"Fitted to {fit['record_name']} with {how}.", className="readout-row")
+    ]
     if not meeting:
         rows.append(
             html.Table(

@@ -150,7 +150,12 @@ def plane_figure(rows: Sequence[Mapping[str, Any]], q: float | None, *, meeting:
         autosize=True,
         margin={"l": 80, "r": 130, "t": 70, "b": 60},
         xaxis={"title": term("plane_x", meeting), "range": [x_lo, x_hi]},
-        yaxis={"title": term("plane_y", meeting), "type": "log", "range": [math.log10(lo_b), math.log10(hi_b)]},
+        yaxis={
+            "title": term("plane_y", meeting),
+            "type": "log",
+            "range": [math.log10(lo_b), math.log10(hi_b)],
+            "dtick": "D2",
+        },
         legend={"orientation": "h", "yref": "container", "yanchor": "top", "y": 1.0, "x": 0.0},
         clickmode="event",
     )
