@@ -104,6 +104,13 @@ def test_region_from_upload_to_the_lake_now(browser: Any, app_url: str, tmp_path
     assert page.is_visible(f"#{ids.VIEW_LAKE}") and not page.is_visible(f"#{ids.VIEW_REGION}")
     assert page.get_attribute(".view-tabs [role='tab']:nth-child(1)", "aria-selected") == "true"
     assert dash.state_word() != ""
+    # by keyboard: the focused row of the table, Space opens it
+    open_tab(dash, "region")
+    second = page.locator(f"#{ids.REGION_TABLE} .ag-row[row-index='1'] [col-id='name']").first
+    name2 = second.inner_text().strip()
+    page.evaluate(f"dash_ag_grid.getApi('{ids.REGION_TABLE}').setFocusedCell(1, 'name')")
+    page.keyboard.press("Space")
+    page.wait_for_function(f"document.getElementById('{ids.LAKE_TITLE}').innerText.includes({name2!r})")
     assert errors == []
     context.close()
 
