@@ -379,8 +379,8 @@ REGION_COLUMNS: dict[str, tuple[str, str]] = {
     "tipping_load": ("Tipping load [kg yr⁻¹]", "Tipping point (kg/yr)"),
     "recovery_load": ("Recovery load [kg yr⁻¹]", "Way-back point (kg/yr)"),
     "margin_kg_yr": ("Margin to tipping [kg yr⁻¹]", "Room before tipping (kg/yr)"),
-    "p_irreversible": ("P(irreversible)", "Chance of no way back"),
-    "p_hysteretic": ("P(hysteretic)", "Chance of a harder way back"),
+    "p_irreversible": ("P(irrev.)", "Chance of no way back"),
+    "p_hysteretic": ("P(hyst.)", "Chance of a harder way back"),
     "source": ("Parameters", "Numbers from"),
     "n_warnings": ("Warnings", "Notes"),
 }
