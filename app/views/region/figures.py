@@ -154,12 +154,23 @@ def plane_figure(rows: Sequence[Mapping[str, Any]], q: float | None, *, meeting:
             "title": term("plane_y", meeting),
             "type": "log",
             "range": [math.log10(lo_b), math.log10(hi_b)],
-            "dtick": "D2",
+            "tickvals": log_ticks(lo_b, hi_b),
+            "tickformat": "~g",
         },
         legend={"orientation": "h", "yref": "container", "yanchor": "top", "y": 1.0, "x": 0.0},
         clickmode="event",
     )
     return fig
+
+
+def log_ticks(lo: float, hi: float) -> list[float]:
+    """Ticks of a logarithmic axis from ``lo`` to ``hi``: 1, 2, 5 of each decade, or every digit when that is
+    fewer than three ticks."""
+    for digits in ((1, 2, 5), tuple(range(1, 10))):
+        ticks = [d * 10.0**k for k in range(-6, 7) for d in digits if lo <= d * 10.0**k <= hi]
+        if len(ticks) >= 3:
+            return ticks
+    return ticks
 
 
 def plane_note(rows: Sequence[Mapping[str, Any]], q: float, meeting: bool = False) -> str:
