@@ -492,6 +492,12 @@ def write_pngs(
     figs = [go.Figure(f).update_layout(width=width, height=height) for f in figures.values()]
     try:
         pio.write_images(figs, paths, format="png", scale=scale)
+        for fig, path in zip(figs, paths, strict=True):
+            if not path.is_file():  # the batch can drop an image on a busy machine: one more try, alone
+                pio.write_image(fig, path, format="png", scale=scale)
+        missing = [p.name for p in paths if not p.is_file()]
+        if missing:
+            raise RuntimeError(f"no image was written for {', '.join(missing)}")
     except Exception as exc:
         raise ValueError(
             f"PNG export failed ({type(exc).__name__}: {str(exc).splitlines()[0] if str(exc) else ''}); it needs "
